@@ -1,0 +1,268 @@
+"""Circuit equations of the supported topologies, as one compiled residual function.
+
+All topologies share one four-unknown layout so the solver is written once:
+
+====  ==========  ===========================================  ======================
+row   unknown     equation                                      mass (coefficient of d/dt)
+====  ==========  ===========================================  ======================
+0     v_c1 [V]    series capacitor: C1 dv/dt = i_s - v/R_b       C1 (0 if no capacitor)
+1     v_o [V]     reservoir / bulk: C_o dv/dt = i_dc - i_load    C_o
+2     v_a [V]     rectifier input node, KCL (algebraic)          0
+3     i_s [A]     series branch: L di/dt = v_s - R i - v_c1 - v_a  L_src (0 = algebraic)
+====  ==========  ===========================================  ======================
+
+Rows with zero mass are algebraic: the integrator enforces them at every time point.
+Where a topology has no series capacitor, row 0 reads ``v_c1 = 0``.
+
+Topologies
+----------
+capacitive-dropper, half-wave
+    mains -> R_series -> C1 (bleeder R_b across it) -> node a; zener from a to neutral
+    (breakdown when a is positive, forward when negative); diode a -> reservoir C_o;
+    linear regulator drawing ``i_load + i_q`` from C_o.
+capacitive-dropper, bridge
+    mains -> R_series -> C1 || R_b -> bridge input (a, neutral); bridge output on C_o with
+    the zener across C_o; regulator as above.
+resistive-dropper
+    as the capacitive dropper with C1 replaced by a short (R_series includes the dropper).
+rectifier-smps
+    X capacitor C_x and its bleeder across the mains (their currents are computed from
+    the source voltage); R_series -> rectifier -> bulk C_o; the converter draws a power
+    ``p_conv`` from C_o above its undervoltage lockout.
+
+Conventions: consumer sign (current into the supply positive), source voltage
+``v_s = V_pk sin(omega t)``, node voltages to neutral.
+
+Departure: the source impedance (``R_src``, ``L_src``) is placed in series with the
+rectifier branch only; the X capacitor and its bleeder see the source EMF. Their
+current (tens of mA) through a sub-ohm source impedance changes the terminal voltage
+by less than 1e-4 of the mains, while making the X capacitor a state would add a time
+constant of nanoseconds that a mains-cycle integrator should not have to resolve.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+
+from .devices import diode_current_a, zener_breakdown_current_a
+
+# --- topology codes -----------------------------------------------------------------
+CAPACITIVE_DROPPER = 0
+RESISTIVE_DROPPER = 1
+RECTIFIER_SMPS = 2
+HALF_WAVE = 0
+BRIDGE = 1
+
+# --- parameter vector layout (one row per variant) -----------------------------------
+P_TOPO = 0  # topology code
+P_RECT = 1  # rectifier code
+P_VPK = 2  # source peak voltage [V]
+P_OMEGA = 3  # angular frequency [rad/s]
+P_RSER = 4  # series resistance of the supply, dropper resistor included [ohm]
+P_RSRC = 5  # source resistance [ohm]
+P_LSRC = 6  # source inductance [H]
+P_C1 = 7  # series (dropper) capacitance [F]
+P_RB = 8  # bleeder resistance [ohm]
+P_CO = 9  # reservoir / bulk capacitance [F]
+P_D_IS = 10  # rectifier diode saturation current [A]
+P_D_NVT = 11  # rectifier diode n*V_T [V]
+P_Z_VK = 12  # zener knee voltage [V]
+P_Z_S = 13  # zener knee width [V]
+P_Z_RZ = 14  # zener dynamic resistance [ohm]
+P_ZF_IS = 15  # zener forward saturation current [A]
+P_ZF_NVT = 16  # zener forward n*V_T [V]
+P_ILOAD = 17  # regulator output current [A]
+P_IQ = 18  # regulator quiescent current [A]
+P_VOUT = 19  # regulated output voltage [V]
+P_VDO = 20  # regulator dropout [V]
+P_PCONV = 21  # converter input power at this state [W]
+P_ETA = 22  # converter efficiency at this state [-]
+P_UVLO = 23  # converter undervoltage lockout [V]
+P_CX = 24  # X capacitance [F]
+N_PARAMS = 25
+
+N_STATES = 4
+S_VC1, S_VO, S_VA, S_IS = 0, 1, 2, 3
+
+# --- probes: instantaneous quantities recorded at every sample -----------------------
+PROBES = (
+    "i_line_a",
+    "v_source_v",
+    "p_series_resistor_w",
+    "p_source_resistance_w",
+    "p_bleeder_w",
+    "p_zener_w",
+    "p_rectifier_w",
+    "p_regulator_pass_w",
+    "p_regulator_quiescent_w",
+    "p_converter_w",
+    "p_delivered_w",
+    "p_store_series_capacitor_w",
+    "p_store_reservoir_w",
+    "p_store_x_capacitor_w",
+    "p_store_inductance_w",
+    "v_c1_v",
+    "v_o_v",
+    "i_zener_a",
+    "v_out_v",
+)
+N_PROBES = len(PROBES)
+#: probes that are losses inside the supply (their means are the loss budget)
+LOSS_PROBES = (
+    "p_series_resistor_w",
+    "p_bleeder_w",
+    "p_zener_w",
+    "p_rectifier_w",
+    "p_regulator_pass_w",
+    "p_regulator_quiescent_w",
+    "p_converter_w",
+)
+#: probes of energy storage (mean zero in periodic steady state)
+STORAGE_PROBES = (
+    "p_store_series_capacitor_w",
+    "p_store_reservoir_w",
+    "p_store_x_capacitor_w",
+    "p_store_inductance_w",
+)
+
+#: regulator turn-on width at zero input voltage [V] (keeps the sink passive near 0 V)
+REG_SOFT_V = 0.1
+
+
+@njit(cache=True)
+def mass_vector(p, m):
+    """Fill ``m`` with the coefficients of d/dt of each row."""
+    topo = int(p[P_TOPO])
+    m[S_VC1] = p[P_C1] if topo == CAPACITIVE_DROPPER else 0.0
+    m[S_VO] = p[P_CO]
+    m[S_VA] = 0.0
+    m[S_IS] = p[P_LSRC]
+
+
+@njit(cache=True, inline="always")
+def _load_current_a(vo, p):
+    """Current drawn from the reservoir by the regulator or the converter [A]."""
+    if int(p[P_TOPO]) == RECTIFIER_SMPS:
+        uvlo = p[P_UVLO]
+        width = 0.02 * uvlo + 0.5
+        gate = 0.5 * (1.0 + math.tanh((vo - uvlo) / width))
+        return p[P_PCONV] * gate * vo / (vo * vo + 1.0)
+    return (p[P_ILOAD] + p[P_IQ]) * math.tanh(vo / REG_SOFT_V)
+
+
+@njit(cache=True, inline="always")
+def _zener_current_a(v, p):
+    """Current [A] into a zener whose cathode is at ``v`` [V] against its anode."""
+    return zener_breakdown_current_a(v, p[P_Z_VK], p[P_Z_S], p[P_Z_RZ]) - diode_current_a(
+        -v, p[P_ZF_IS], p[P_ZF_NVT]
+    )
+
+
+@njit(cache=True, inline="always")
+def _bridge_paths_a(va, vo, p):
+    """Currents [A] of the two conducting paths of a bridge (positive, negative half)."""
+    i1 = diode_current_a(0.5 * (va - vo), p[P_D_IS], p[P_D_NVT])
+    i2 = diode_current_a(0.5 * (-va - vo), p[P_D_IS], p[P_D_NVT])
+    return i1, i2
+
+
+@njit(cache=True)
+def residual(x, t, p, f):
+    """Right-hand sides ``f`` of all rows at state ``x``, time ``t`` [s]."""
+    topo = int(p[P_TOPO])
+    rect = int(p[P_RECT])
+    vc1 = x[S_VC1]
+    vo = x[S_VO]
+    va = x[S_VA]
+    i_s = x[S_IS]
+    vs = p[P_VPK] * math.sin(p[P_OMEGA] * t)
+
+    if topo == CAPACITIVE_DROPPER:
+        f[S_VC1] = i_s - vc1 / p[P_RB]
+    else:
+        f[S_VC1] = -vc1
+    i_load = _load_current_a(vo, p)
+    if rect == HALF_WAVE:
+        i_d = diode_current_a(va - vo, p[P_D_IS], p[P_D_NVT])
+        f[S_VO] = i_d - i_load
+        if topo == RECTIFIER_SMPS:
+            f[S_VA] = i_s - i_d
+        else:
+            f[S_VA] = i_s - _zener_current_a(va, p) - i_d
+    else:
+        i1, i2 = _bridge_paths_a(va, vo, p)
+        i_dc = i1 + i2
+        if topo == RECTIFIER_SMPS:
+            f[S_VO] = i_dc - i_load
+        else:
+            f[S_VO] = i_dc - _zener_current_a(vo, p) - i_load
+        f[S_VA] = i_s - (i1 - i2)
+    f[S_IS] = vs - (p[P_RSER] + p[P_RSRC]) * i_s - vc1 - va
+
+
+@njit(cache=True)
+def probes(x, t, p, out):
+    """Record the instantaneous quantities named in :data:`PROBES` into ``out``."""
+    f = np.empty(N_STATES)
+    residual(x, t, p, f)
+    topo = int(p[P_TOPO])
+    rect = int(p[P_RECT])
+    vc1 = x[S_VC1]
+    vo = x[S_VO]
+    va = x[S_VA]
+    i_s = x[S_IS]
+    w = p[P_OMEGA]
+    vs = p[P_VPK] * math.sin(w * t)
+    for k in range(N_PROBES):
+        out[k] = 0.0
+
+    i_line = i_s
+    if topo == RECTIFIER_SMPS:
+        i_x = p[P_CX] * p[P_VPK] * w * math.cos(w * t)
+        i_bl = vs / p[P_RB]
+        i_line = i_s + i_x + i_bl
+        out[4] = vs * i_bl
+        out[13] = vs * i_x
+    elif topo == CAPACITIVE_DROPPER:
+        out[4] = vc1 * vc1 / p[P_RB]
+        out[11] = vc1 * (i_s - vc1 / p[P_RB])
+    out[0] = i_line
+    out[1] = vs
+    out[2] = p[P_RSER] * i_s * i_s
+    out[3] = p[P_RSRC] * i_s * i_s
+    out[14] = f[S_IS] * i_s  # L di/dt * i (zero when L_src = 0)
+
+    if rect == HALF_WAVE:
+        i_d = diode_current_a(va - vo, p[P_D_IS], p[P_D_NVT])
+        out[6] = (va - vo) * i_d
+        if topo != RECTIFIER_SMPS:
+            iz = _zener_current_a(va, p)
+            out[5] = va * iz
+            out[17] = iz
+    else:
+        i1, i2 = _bridge_paths_a(va, vo, p)
+        out[6] = (va - vo) * i1 + (-va - vo) * i2
+        if topo != RECTIFIER_SMPS:
+            iz = _zener_current_a(vo, p)
+            out[5] = vo * iz
+            out[17] = iz
+    out[12] = vo * f[S_VO]
+
+    i_load = _load_current_a(vo, p)
+    p_load = vo * i_load
+    if topo == RECTIFIER_SMPS:
+        out[10] = p[P_ETA] * p_load
+        out[9] = p_load - out[10]
+        out[18] = vo
+    else:
+        share = i_load / (p[P_ILOAD] + p[P_IQ]) if (p[P_ILOAD] + p[P_IQ]) > 0.0 else 0.0
+        v_out = min(p[P_VOUT], max(vo - p[P_VDO], 0.0))
+        out[10] = v_out * p[P_ILOAD] * share
+        out[8] = vo * p[P_IQ] * share
+        out[7] = p_load - out[10] - out[8]
+        out[18] = v_out
+    out[15] = vc1
+    out[16] = vo

@@ -1,0 +1,93 @@
+"""Smooth semiconductor models, as scalar functions the compiled engine calls.
+
+Every model is continuous with a continuous first derivative, so the Newton iterations
+of the implicit integrator converge; each is fitted to the figures a datasheet gives.
+
+Notes
+-----
+Rectifier diode (Shockley):
+
+.. math:: i_D(v) = I_S\\,(e^{v / n V_T} - 1)
+
+with :math:`V_T = kT/q` at 25 °C and emission coefficient :math:`n = 1.8`, typical of
+silicon rectifiers of the 1N400x kind (from memory). :math:`I_S` is chosen so the diode
+drops ``vf_v`` at ``if_a`` (by default 0.7 V at 20 mA, "about 0.7 V at tens of mA",
+common practice, no source). The dynamic resistance follows as :math:`n V_T / i`. Above
+100 A the exponential is continued by its tangent, a guard for Newton iterates only
+(SPICE does the same, Nagel 1975); no converged solution reaches it.
+
+Zener breakdown (reverse direction), a softplus knee with an ohmic tail:
+
+.. math:: i_Z(v) = \\frac{s}{r_Z}\\,\\ln\\!\\left(1 + e^{(v - V_K)/s}\\right)
+
+Far above the knee :math:`di_Z/dv \\to 1/r_Z` (the datasheet's dynamic resistance); the
+knee width is :math:`s = I_{ZT} r_Z / 5` and :math:`V_K` is set so that
+:math:`i_Z(V_Z) = I_{ZT}` exactly, i.e. ``zener_voltage`` means what a datasheet means:
+the breakdown voltage at the test current. At :math:`I_{ZT}` the slope is
+:math:`\\sigma(5)/r_Z = 0.993/r_Z`. The zener's forward direction is a rectifier diode.
+
+References
+----------
+.. [1] W. Shockley, "The theory of p-n junctions in semiconductors and p-n junction
+   transistors", Bell System Technical Journal 28 (1949) 435-489.
+.. [2] L. W. Nagel, "SPICE2: A computer program to simulate semiconductor circuits",
+   Memo ERL-M520, UC Berkeley, 1975 (junction-voltage limiting).
+"""
+
+from __future__ import annotations
+
+import math
+
+from numba import njit
+
+#: Boltzmann constant over electron charge [V/K]
+K_OVER_Q_V_PER_K = 8.617333262e-5
+#: Junction temperature the models are fitted at [K]
+T_REF_K = 298.15
+#: Thermal voltage at T_REF_K [V]
+VT_V = K_OVER_Q_V_PER_K * T_REF_K
+#: Emission coefficient of a silicon rectifier (from memory)
+N_RECTIFIER = 1.8
+#: Current above which the exponential is continued linearly (Newton guard) [A]
+I_GUARD_A = 100.0
+#: Knee width of the zener model as a fraction of I_ZT * r_Z
+ZENER_KNEE_DIVISOR = 5.0
+
+
+def diode_saturation_current_a(vf_v: float, if_a: float, n: float = N_RECTIFIER) -> float:
+    """Saturation current [A] that makes a Shockley diode drop ``vf_v`` [V] at ``if_a`` [A]."""
+    return if_a / math.expm1(vf_v / (n * VT_V))
+
+
+def zener_knee(vz_v: float, izt_a: float, rz_ohm: float) -> tuple[float, float]:
+    """Knee voltage ``vk_v`` [V] and width ``s_v`` [V] of the softplus zener model.
+
+    Chosen so that the breakdown current at ``vz_v`` equals ``izt_a`` exactly.
+    """
+    s_v = izt_a * rz_ohm / ZENER_KNEE_DIVISOR
+    u0 = math.log(math.expm1(ZENER_KNEE_DIVISOR))
+    return vz_v - s_v * u0, s_v
+
+
+@njit(cache=True, inline="always")
+def diode_current_a(v_v, is_a, nvt_v):
+    """Shockley diode current [A] at junction voltage ``v_v`` [V], tangent-continued."""
+    u = v_v / nvt_v
+    u_max = math.log(I_GUARD_A / is_a)
+    if u > u_max:
+        return is_a * (math.exp(u_max) * (1.0 + u - u_max) - 1.0)
+    return is_a * math.expm1(u)
+
+
+@njit(cache=True, inline="always")
+def softplus(u):
+    """ln(1 + e^u) without overflow."""
+    if u > 0.0:
+        return u + math.log1p(math.exp(-u))
+    return math.log1p(math.exp(u))
+
+
+@njit(cache=True, inline="always")
+def zener_breakdown_current_a(v_v, vk_v, s_v, rz_ohm):
+    """Reverse (breakdown) current [A] of a zener reverse-biased by ``v_v`` [V] (> 0)."""
+    return s_v / rz_ohm * softplus((v_v - vk_v) / s_v)
