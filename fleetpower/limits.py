@@ -34,6 +34,7 @@ IEC 60335-1 clause 22.5; IEC 62368-1 clause 5.5.2.2 (capacitor discharge).
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
@@ -376,9 +377,17 @@ def _read_table(path: Path) -> pd.DataFrame:
     return df
 
 
-def _shipped() -> pd.DataFrame:
-    frames = [_read_table(p) for p in sorted(limits_dir().glob("*.csv"))]
+@functools.lru_cache(maxsize=4)
+def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> pd.DataFrame:
+    frames = [_read_table(Path(name)) for name, _ in stamp]
     return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=COLUMNS)
+
+
+def _shipped() -> pd.DataFrame:
+    """All shipped rows (cached per file modification time; a copy is returned)."""
+    files = sorted(limits_dir().glob("*.csv"))
+    stamp = tuple((str(f), f.stat().st_mtime) for f in files)
+    return _shipped_cached(str(limits_dir()), stamp).copy()
 
 
 def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:

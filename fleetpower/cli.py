@@ -1,0 +1,92 @@
+"""Command line: parses, calls the library, renders. Nothing else lives here."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+from rich.console import Console
+
+from .errors import FleetpowerError, InputError, SolverError
+
+EXIT_INPUT = 2
+EXIT_SOLVER = 3
+
+
+def _console(args) -> Console:
+    return Console(width=getattr(args, "width", None) or None, highlight=False)
+
+
+def _status(message: str):
+    """A spinner on stderr while the engine works (silent when stderr is not a terminal)."""
+    return Console(stderr=True).status(message, spinner="line")
+
+
+def cmd_unit(args) -> int:
+    from .inputs import load_design
+    from .report import render_unit, unit_to_dict
+    from .supply import analyse_unit
+
+    design = load_design(args.design)
+    states = [args.state] if args.state else None
+    if args.state and args.state not in design.states:
+        from .errors import suggest
+
+        raise InputError(args.design, "--state",
+                         f"unknown state {args.state!r}{suggest(args.state, design.states)}")
+    with _status(f"solving {design.name} to periodic steady state"):
+        analysis = analyse_unit(design, states)
+        extra = _compliance(design, analysis, args)
+        if extra is not None:
+            analysis.extra["compliance"] = extra
+    report = unit_to_dict(analysis)
+    if args.json:
+        print(json.dumps(report, indent=2))
+    else:
+        render_unit(report, _console(args))
+    return 0
+
+
+def _compliance(design, analysis, args):
+    try:
+        from .compliance import unit_compliance
+    except ImportError:  # limits layer not installed in this build
+        return None
+    return unit_compliance(design, analysis, limits_file=getattr(args, "limits", None))
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="fleetpower",
+        description="What a fleet of small always-on mains supplies really draws.",
+    )
+    sub = p.add_subparsers(dest="command", required=True)
+    u = sub.add_parser("unit", help="simulate one supply to periodic steady state")
+    u.add_argument("design", help="design file (TOML)")
+    u.add_argument("--state", help="analyse only this operating state")
+    u.add_argument("--json", action="store_true", help="print one JSON object instead")
+    u.add_argument("--limits", help="an extra limit-set file (CSV) to check against")
+    u.add_argument("--width", type=int, help="terminal width in columns")
+    u.set_defaults(func=cmd_unit)
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.func(args)
+    except InputError as exc:
+        print(f"fleetpower: {exc.one_line()}", file=sys.stderr)
+        return EXIT_INPUT
+    except SolverError as exc:
+        print(f"fleetpower: solver: {exc}", file=sys.stderr)
+        return EXIT_SOLVER
+    except FleetpowerError as exc:  # pragma: no cover - defensive
+        print(f"fleetpower: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

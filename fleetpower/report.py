@@ -1,0 +1,314 @@
+"""Rendering: JSON-ready dictionaries and rich terminal summaries.
+
+Every figure shown on the terminal is taken from the same dictionary that ``--json``
+prints, so the two can never disagree beyond the displayed digits.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+from rich import box
+from rich.console import Console, Group
+from rich.panel import Panel
+from rich.table import Table
+from rich.text import Text
+
+from .analysis import harmonic_table
+from .supply import StateResult, UnitAnalysis
+
+VERDICT_MARK = {
+    "pass": "PASS",
+    "fail": "FAIL",
+    "unrated": "no rating",
+    "note": "info",
+    "not applicable": "n/a",
+}
+VERDICT_STYLE = {"pass": "green", "fail": "bold red", "unrated": "yellow", "note": "cyan",
+                 "not applicable": "dim"}
+
+
+def _clean(x: Any) -> Any:
+    """Make a value JSON-safe: numpy scalars to Python, NaN/inf refused loudly."""
+    if isinstance(x, dict):
+        return {k: _clean(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_clean(v) for v in x]
+    if isinstance(x, (np.floating, float)):
+        v = float(x)
+        if not math.isfinite(v):
+            raise ValueError("refusing to report a non-finite number")
+        return v
+    if isinstance(x, (np.integer,)):
+        return int(x)
+    if isinstance(x, np.bool_):
+        return bool(x)
+    return x
+
+
+def state_to_dict(r: StateResult) -> dict:
+    """JSON-ready figures of one state (keys carry their units)."""
+    q = r.pq
+    table = harmonic_table(q.i_h_a)
+    return {
+        "state": r.state,
+        "v_rms_v": q.v_rms_v,
+        "i_rms_a": q.i_rms_a,
+        "i_peak_a": q.i_peak_a,
+        "crest_factor": q.crest_factor,
+        "p_w": q.p_w,
+        "s_va": q.s_va,
+        "q1_var": q.q1_var,
+        "p1_w": q.p1_w,
+        "s1_va": q.s1_va,
+        "n_var": q.n_var,
+        "d_i_var": q.d_i_var,
+        "pf": q.pf,
+        "dpf": q.dpf,
+        "thd_i_pct": q.thd_i_pct,
+        "i_dc_mains_a": q.i_dc_a,
+        "harmonics": [
+            {"h": int(row.h), "i_rms_a": row.i_rms_a,
+             "pct_of_fundamental": row.pct_of_fundamental, "phase_deg": row.phase_deg}
+            for row in table.itertuples()
+        ],
+        "losses_w": dict(r.losses_w),
+        "delivered_w": r.balance.delivered_w,
+        "balance": {
+            "p_in_w": r.balance.p_in_w,
+            "delivered_w": r.balance.delivered_w,
+            "losses_w": r.balance.losses_w,
+            "source_resistance_w": r.balance.source_resistance_w,
+            "residual_w": r.balance.residual_w,
+            "residual_pct": r.balance.residual_pct,
+        },
+        "output": {
+            "v_dc_v": r.v_dc_v,
+            "v_dc_min_v": r.v_dc_min_v,
+            "ripple_v_pp": r.ripple_v_pp,
+            "i_dc_a": r.i_dc_a,
+            "in_regulation": r.in_regulation,
+        },
+        "shooting_iterations": r.iterations,
+    }
+
+
+def unit_to_dict(u: UnitAnalysis) -> dict:
+    """JSON-ready report of a unit analysis.
+
+    The top level holds the design's figures and a ``states`` list; when exactly one
+    state was analysed, its figures also stand at the top level.
+    """
+    d = u.design
+    out: dict[str, Any] = {
+        "design": d.name,
+        "file": d.source,
+        "topology": d.topology,
+        "isolated": d.is_isolated,
+        "caution": u.caution,
+        "unit_price": d.unit_price,
+        "mains": {"v_rms_v": d.mains.voltage, "f_hz": d.mains.frequency},
+        "states": [state_to_dict(r) for r in u.states],
+        "stresses": [
+            {"item": s.item, "value": s.value, "unit": s.unit, "limit": s.limit,
+             "used_pct": s.used_pct, "verdict": s.verdict, "condition": s.condition,
+             "note": s.note}
+            for s in u.stresses
+        ],
+        "warnings": list(u.warnings),
+    }
+    if u.max_deliverable_a is not None:
+        out["max_deliverable_i_dc_a"] = u.max_deliverable_a
+    if u.hand is not None:
+        h = u.hand
+        out["hand_estimate"] = {
+            "xc_ohm": h.xc_ohm, "i_cap_rms_a": h.i_cap_rms_a, "rule": h.rule,
+            "hand_estimate_i_dc_a": h.hand_estimate_a, "sine_average_i_dc_a": h.sine_average_a,
+            "charge_pump_i_dc_a": h.charge_pump_a, "simulated_max_i_dc_a": h.simulated_max_a,
+            "explanation": h.explanation,
+        }
+    if "compliance" in u.extra:
+        out["compliance"] = u.extra["compliance"]
+    if len(u.states) == 1:
+        for k, v in out["states"][0].items():
+            out.setdefault(k, v)
+    return _clean(out)
+
+
+# ----------------------------------------------------------------------------------
+# terminal
+# ----------------------------------------------------------------------------------
+def fmt(x: float | None, digits: int = 3, unit: str = "") -> str:
+    """Engineering-friendly number with ``digits`` significant figures and a unit."""
+    if x is None:
+        return "—"
+    if x == 0:
+        s = "0"
+    else:
+        mag = math.floor(math.log10(abs(x)))
+        dec = max(digits - 1 - mag, 0)
+        s = f"{x:.{dec}f}"
+    return f"{s} {unit}".rstrip()
+
+
+def _verdict(v: str) -> Text:
+    return Text(VERDICT_MARK.get(v, v), style=VERDICT_STYLE.get(v, ""))
+
+
+def _state_table(states: list[dict]) -> Table:
+    t = Table(box=box.SIMPLE_HEAD, title="Drawn from the mains", title_justify="left",
+              pad_edge=False)
+    t.add_column("quantity")
+    for s in states:
+        t.add_column(s["state"], justify="right")
+    rows = [
+        ("V rms", "v_rms_v", 4, "V"), ("I rms", "i_rms_a", 4, "A"), ("I peak", "i_peak_a", 4, "A"),
+        ("crest factor", "crest_factor", 3, ""), ("P real", "p_w", 4, "W"),
+        ("S apparent", "s_va", 4, "VA"), ("Q1 fundamental", "q1_var", 4, "var"),
+        ("DPF", "dpf", 3, ""), ("PF", "pf", 3, ""), ("THD of current", "thd_i_pct", 3, "%"),
+    ]
+    for label, key, dig, unit in rows:
+        t.add_row(label, *[fmt(s[key], dig, unit) for s in states])
+    t.add_row("Q1 sign", *["leading (capacitive)" if s["q1_var"] < 0 else "lagging"
+                            for s in states])
+    return t
+
+
+def _harmonic_table(state: dict) -> Table:
+    t = Table(box=box.SIMPLE_HEAD, title=f"Harmonic currents, state '{state['state']}' "
+              "(rms; % of I1; phase vs V1)", title_justify="left", pad_edge=False)
+    groups = 3
+    for _ in range(groups):
+        t.add_column("h", justify="right", style="bold")
+        t.add_column("mA", justify="right")
+        t.add_column("%", justify="right")
+        t.add_column("deg", justify="right")
+    odd = [h for h in state["harmonics"] if h["h"] % 2 == 1 or h["pct_of_fundamental"] >= 0.5]
+    per = math.ceil(len(odd) / groups)
+    for row in range(per):
+        cells = []
+        for g in range(groups):
+            k = g * per + row
+            if k < len(odd):
+                h = odd[k]
+                cells += [str(h["h"]), fmt(h["i_rms_a"] * 1e3, 3), fmt(h["pct_of_fundamental"], 3),
+                          f"{h['phase_deg']:.0f}"]
+            else:
+                cells += ["", "", "", ""]
+        t.add_row(*cells)
+    t.caption = "even orders below 0.5 % of I1 not shown; all 50 orders are in --json"
+    return t
+
+
+def _loss_table(states: list[dict]) -> Table:
+    t = Table(box=box.SIMPLE_HEAD, title="Where the input power goes", title_justify="left",
+              pad_edge=False)
+    t.add_column("")
+    for s in states:
+        t.add_column(s["state"], justify="right")
+    names: list[str] = []
+    for s in states:
+        for k in s["losses_w"]:
+            if k not in names:
+                names.append(k)
+    for n in names:
+        t.add_row(n, *[fmt(s["losses_w"].get(n, 0.0), 3, "W") for s in states])
+    if any(s["balance"]["source_resistance_w"] for s in states):
+        t.add_row("mains source resistance",
+                  *[fmt(s["balance"]["source_resistance_w"], 3, "W") for s in states])
+    t.add_row("delivered to the load", *[fmt(s["delivered_w"], 3, "W") for s in states],
+              style="bold")
+    t.add_row("input P", *[fmt(s["balance"]["p_in_w"], 4, "W") for s in states], style="bold")
+    t.add_row("balance residual",
+              *[f"{s['balance']['residual_pct']:+.4f} %" for s in states], style="dim")
+    return t
+
+
+def _output_table(states: list[dict]) -> Table:
+    t = Table(box=box.SIMPLE_HEAD, title="Output", title_justify="left", pad_edge=False)
+    t.add_column("")
+    for s in states:
+        t.add_column(s["state"], justify="right")
+    t.add_row("reservoir mean", *[fmt(s["output"]["v_dc_v"], 4, "V") for s in states])
+    t.add_row("reservoir minimum", *[fmt(s["output"]["v_dc_min_v"], 4, "V") for s in states])
+    t.add_row("ripple", *[fmt(s["output"]["ripple_v_pp"], 3, "V p-p") for s in states])
+    t.add_row("load current", *[fmt(s["output"]["i_dc_a"] * 1e3, 3, "mA") for s in states])
+    t.add_row("in regulation", *["yes" if s["output"]["in_regulation"] else "NO" for s in states])
+    return t
+
+
+def _stress_table(stresses: list[dict]) -> Table:
+    t = Table(box=box.SIMPLE_HEAD, title="Component stresses", title_justify="left",
+              pad_edge=False)
+    t.add_column("item")
+    t.add_column("value", justify="right")
+    t.add_column("rating", justify="right")
+    t.add_column("verdict")
+    t.add_column("condition / note", overflow="fold")
+    for s in stresses:
+        t.add_row(s["item"], fmt(s["value"], 3, s["unit"]), fmt(s["limit"], 3, s["unit"]),
+                  _verdict(s["verdict"]), "; ".join(x for x in (s["condition"], s["note"]) if x))
+    return t
+
+
+def _compliance_table(rows: list[dict]) -> Table:
+    t = Table(box=box.SIMPLE_HEAD, title="Compliance with published limits",
+              title_justify="left", pad_edge=False)
+    t.add_column("set")
+    t.add_column("quantity")
+    t.add_column("value", justify="right")
+    t.add_column("limit", justify="right")
+    t.add_column("used", justify="right")
+    t.add_column("verdict")
+    t.add_column("clause / reason", overflow="fold")
+    for r in rows:
+        used = "" if r.get("used_pct") is None else f"{r['used_pct']:.0f} %"
+        t.add_row(r["set"], r["quantity"], fmt(r.get("value"), 3, r.get("unit", "")),
+                  fmt(r.get("limit"), 3, r.get("unit", "")), used, _verdict(r["verdict"]),
+                  r.get("reason") or r.get("clause", ""))
+    return t
+
+
+def render_unit(report: dict, console: Console) -> None:
+    """Print the terminal summary of a unit report (the dict from :func:`unit_to_dict`)."""
+    states = report["states"]
+    head = Text.assemble(
+        ("fleetpower unit  ", "bold"), (report["design"], "bold cyan"),
+        f"\n{report['topology']} on {fmt(report['mains']['v_rms_v'], 3, 'V')} "
+        f"{fmt(report['mains']['f_hz'], 3, 'Hz')}"
+        + ("" if report.get("unit_price") is None else f"; unit price {report['unit_price']}")
+        + f"; {'isolated' if report['isolated'] else 'NOT isolated'}",
+    )
+    console.print(Panel(head, box=box.HEAVY, expand=False))
+    if report.get("caution"):
+        console.print(Panel(Text(report["caution"], style="bold"), title="SAFETY",
+                            border_style="red", box=box.DOUBLE))
+    console.print(_state_table(states))
+    console.print(_loss_table(states))
+    console.print(_output_table(states))
+    if "hand_estimate" in report:
+        h = report["hand_estimate"]
+        body = Group(
+            Text(f"Xc = 1/(2 pi f C) = {fmt(h['xc_ohm'], 4, 'ohm')}; capacitor current "
+                 f"V/Xc = {fmt(h['i_cap_rms_a'] * 1e3, 4, 'mA')} rms"),
+            Text(f"hand estimate ({h['rule']}): {fmt(h['hand_estimate_i_dc_a'] * 1e3, 4, 'mA')}"),
+            Text(f"largest load held in regulation (simulated): "
+                 f"{fmt(h['simulated_max_i_dc_a'] * 1e3, 4, 'mA')}", style="bold"),
+            Text("why they differ:"),
+            *[Text(f"  - {line}") for line in h["explanation"]],
+        )
+        console.print(Panel(body, title="Deliverable DC current: quick estimate vs waveform",
+                            box=box.ROUNDED, title_align="left"))
+    for s in states[:1] if len(states) > 1 else states:
+        console.print(_harmonic_table(s))
+    if len(states) > 1:
+        console.print(Text("(harmonic tables of the other states: --state NAME or --json)",
+                           style="dim"))
+    console.print(_stress_table(report["stresses"]))
+    if report.get("compliance"):
+        console.print(_compliance_table(report["compliance"]))
+    if report["warnings"]:
+        console.print(Panel("\n".join(f"- {w}" for w in report["warnings"]), title="Warnings",
+                            border_style="yellow", title_align="left"))
