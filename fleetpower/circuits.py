@@ -19,7 +19,9 @@ Topologies
 capacitive-dropper, half-wave
     mains -> R_series -> C1 (bleeder R_b across it) -> node a; zener from a to neutral
     (breakdown when a is positive, forward when negative); diode a -> reservoir C_o;
-    linear regulator drawing ``i_load + i_q`` from C_o.
+    linear regulator drawing ``i_load + i_q`` from C_o while in regulation (below its
+    dropout headroom the load is taken as the resistance V_out/I_load, so an overloaded
+    supply settles at a collapsed output instead of having no steady state).
 capacitive-dropper, bridge
     mains -> R_series -> C1 || R_b -> bridge input (a, neutral); bridge output on C_o with
     the zener across C_o; regulator as above.
@@ -47,7 +49,7 @@ import math
 import numpy as np
 from numba import njit
 
-from .devices import diode_current_a, zener_breakdown_current_a
+from .devices import diode_current_a, softplus, zener_breakdown_current_a
 
 # --- topology codes -----------------------------------------------------------------
 CAPACITIVE_DROPPER = 0
@@ -130,6 +132,8 @@ STORAGE_PROBES = (
 
 #: regulator turn-on width at zero input voltage [V] (keeps the sink passive near 0 V)
 REG_SOFT_V = 0.1
+#: relative knee width of the regulator's dropout transition
+REG_KNEE = 0.005
 
 
 @njit(cache=True)
@@ -150,7 +154,20 @@ def _load_current_a(vo, p):
         width = 0.02 * uvlo + 0.5
         gate = 0.5 * (1.0 + math.tanh((vo - uvlo) / width))
         return p[P_PCONV] * gate * vo / (vo * vo + 1.0)
-    return (p[P_ILOAD] + p[P_IQ]) * math.tanh(vo / REG_SOFT_V)
+    return p[P_ILOAD] * regulator_share(vo, p) + p[P_IQ] * math.tanh(vo / REG_SOFT_V)
+
+
+@njit(cache=True, inline="always")
+def regulator_share(vo, p):
+    """Fraction of the set output voltage (and so of the load current) the regulator holds.
+
+    A smooth ``clip((v_o - dropout) / V_out, 0, 1)``: 1 in regulation; below the dropout
+    headroom the output follows the input less the dropout and the load, taken as the
+    resistance V_out / I_load, draws proportionally less. Knee width 0.5 % of V_out.
+    """
+    u = (vo - p[P_VDO]) / p[P_VOUT]
+    s = REG_KNEE
+    return s * (softplus(u / s) - softplus((u - 1.0) / s))
 
 
 @njit(cache=True, inline="always")
@@ -258,10 +275,10 @@ def probes(x, t, p, out):
         out[9] = p_load - out[10]
         out[18] = vo
     else:
-        share = i_load / (p[P_ILOAD] + p[P_IQ]) if (p[P_ILOAD] + p[P_IQ]) > 0.0 else 0.0
-        v_out = min(p[P_VOUT], max(vo - p[P_VDO], 0.0))
-        out[10] = v_out * p[P_ILOAD] * share
-        out[8] = vo * p[P_IQ] * share
+        g = regulator_share(vo, p)
+        v_out = p[P_VOUT] * g
+        out[10] = v_out * p[P_ILOAD] * g
+        out[8] = vo * p[P_IQ] * math.tanh(vo / REG_SOFT_V)
         out[7] = p_load - out[10] - out[8]
         out[18] = v_out
     out[15] = vc1

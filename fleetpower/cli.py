@@ -49,11 +49,44 @@ def cmd_unit(args) -> int:
 
 
 def _compliance(design, analysis, args):
-    try:
-        from .compliance import unit_compliance
-    except ImportError:  # limits layer not installed in this build
-        return None
+    from .compliance import unit_compliance
+
     return unit_compliance(design, analysis, limits_file=getattr(args, "limits", None))
+
+
+def cmd_limits(args) -> int:
+    from rich.table import Table
+
+    from . import limits as L
+
+    console = _console(args)
+    if args.set is None:
+        df = L.list_limit_sets()
+        t = Table(title="Limit sets shipped (data/limits/)", title_justify="left")
+        for col in ("set", "title", "edition", "clause", "provenance", "rows"):
+            t.add_column(col, overflow="fold")
+        for row in df.itertuples(index=False):
+            t.add_row(*[str(getattr(row, c)) for c in ("set", "title", "edition", "clause",
+                                                        "provenance", "rows")])
+        if args.json:
+            print(df.to_json(orient="records", indent=2))
+        else:
+            console.print(t)
+        return 0
+    df = L.load_limit_set(args.set)
+    if args.json:
+        print(df.to_json(orient="records", indent=2))
+        return 0
+    cols = [c for c in ("quantity", "harmonic", "limit", "unit", "kind", "direction",
+                        "applies_from_w", "applies_to_w", "clause", "provenance", "note")
+            if c in df.columns]
+    t = Table(title=f"Limit set {args.set}", title_justify="left")
+    for c in cols:
+        t.add_column(c, overflow="fold")
+    for row in df[cols].itertuples(index=False):
+        t.add_row(*["" if (isinstance(v, float) and v != v) else str(v) for v in row])
+    console.print(t)
+    return 0
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -69,6 +102,11 @@ def build_parser() -> argparse.ArgumentParser:
     u.add_argument("--limits", help="an extra limit-set file (CSV) to check against")
     u.add_argument("--width", type=int, help="terminal width in columns")
     u.set_defaults(func=cmd_unit)
+    lim = sub.add_parser("limits", help="list the shipped limit sets, or show one")
+    lim.add_argument("set", nargs="?", help="a set id, or a limit file (CSV) to check")
+    lim.add_argument("--json", action="store_true")
+    lim.add_argument("--width", type=int)
+    lim.set_defaults(func=cmd_limits)
     return p
 
 

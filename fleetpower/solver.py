@@ -61,7 +61,7 @@ from .errors import SolverError
 DEFAULT_SAMPLES_PER_CYCLE = 2048
 #: relative tolerance of the periodicity condition |x(T) - x(0)| / scale
 PERIODIC_RTOL = 1e-9
-MAX_SHOOTING_ITERATIONS = 40
+MAX_SHOOTING_ITERATIONS = 60
 MAX_NEWTON_ITERATIONS = 40
 #: Newton step size, relative to the unknown's scale, below which a time step is accepted
 NEWTON_RTOL = 1e-7
@@ -281,6 +281,15 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens):
     return STATUS_OK
 
 
+@njit(cache=True, inline="always")
+def _periodic_norm(x0, x1, idx, nd, scale):
+    worst = 0.0
+    for r in range(nd):
+        i = idx[r]
+        worst = max(worst, abs(x1[i] - x0[i]) / scale[i])
+    return worst
+
+
 @njit(cache=True)
 def _shoot(p, x0, n_steps, xs, out_probe, info):
     """Periodic steady state of one variant. Fills ``xs``, ``out_probe`` and ``info``.
@@ -313,41 +322,84 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
             nd += 1
     a = np.empty((nd, nd))
     b = np.empty((nd, 1))
-    for it in range(MAX_SHOOTING_ITERATIONS):
-        status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
-        info[1] = it + 1
-        if status != STATUS_OK:
-            info[0] = status
-            return
-        worst = 0.0
-        for r in range(nd):
-            i = idx[r]
-            worst = max(worst, abs(xs[n_steps, i] - x[i]) / scale[i])
-        info[2] = worst
-        if worst < PERIODIC_RTOL:
+    xt = np.empty(n)
+    cycles = 0
+
+    status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+    cycles += 1
+    if status != STATUS_OK:
+        info[0] = status
+        info[1] = cycles
+        return
+    norm = _periodic_norm(x, xs[n_steps], idx, nd, scale)
+    while cycles < MAX_SHOOTING_ITERATIONS:
+        info[2] = norm
+        if norm < PERIODIC_RTOL:
             info[0] = STATUS_OK
             break
+        # Newton direction on Phi(x) - x = 0
         for r in range(nd):
             i = idx[r]
-            for c in range(nd):
-                a[r, c] = sens[i, idx[c]] - (1.0 if r == c else 0.0)
+            for cc in range(nd):
+                a[r, cc] = sens[i, idx[cc]] - (1.0 if r == cc else 0.0)
             b[r, 0] = -(xs[n_steps, i] - x[i])
         if not _solve_small(a, b, nd):
-            # singular monodromy: fall back to one plain cycle
             for r in range(nd):
                 b[r, 0] = xs[n_steps, idx[r]] - x[idx[r]]
-        # damped update: no unknown moves by more than half the peak voltage at once
-        lim = 1.0
+        # no unknown moves by more than half the peak voltage at once
+        lam = 1.0
         for r in range(nd):
             step = abs(b[r, 0])
             cap = 0.5 * scale[idx[r]]
-            if step * lim > cap:
-                lim = cap / step
-        for r in range(nd):
-            x[idx[r]] += lim * b[r, 0]
-        if not _consistent(x, 0.0, p, m, scale):
-            info[0] = STATUS_STEP_FAILED
-            return
+            if step * lam > cap:
+                lam = cap / step
+        # backtracking line search on the periodicity residual (damped Newton)
+        accepted = False
+        for _ in range(8):
+            for i in range(n):
+                xt[i] = x[i]
+            for r in range(nd):
+                xt[idx[r]] += lam * b[r, 0]
+            if _consistent(xt, 0.0, p, m, scale):
+                status = _one_cycle(p, xt, n_steps, m, scale, xs, sens)
+                cycles += 1
+                if status == STATUS_OK:
+                    trial = _periodic_norm(xt, xs[n_steps], idx, nd, scale)
+                    if trial < (1.0 - 1e-4 * lam) * norm:
+                        for i in range(n):
+                            x[i] = xt[i]
+                        norm = trial
+                        accepted = True
+                        break
+            lam *= 0.5
+        if not accepted:
+            # fall back to one plain cycle from the last accepted state (a physical
+            # transient, which always makes progress towards a stable steady state)
+            status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+            cycles += 1
+            if status != STATUS_OK:
+                info[0] = status
+                info[1] = cycles
+                return
+            for r in range(nd):
+                x[idx[r]] = xs[n_steps, idx[r]]
+            if not _consistent(x, 0.0, p, m, scale):
+                info[0] = STATUS_STEP_FAILED
+                info[1] = cycles
+                return
+            status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+            cycles += 1
+            if status != STATUS_OK:
+                info[0] = status
+                info[1] = cycles
+                return
+            norm = _periodic_norm(x, xs[n_steps], idx, nd, scale)
+    info[1] = cycles
+    info[2] = norm
+    if norm < PERIODIC_RTOL:
+        info[0] = STATUS_OK
+    if info[0] != STATUS_OK:
+        return
     # record probes on the converged cycle (samples 0..n_steps-1)
     w = p[P_OMEGA]
     h = 2.0 * math.pi / w / n_steps
@@ -382,6 +434,8 @@ class SteadyState:
         Shooting-Newton iterations (one-cycle integrations) used.
     periodic_residual : ndarray, shape (batch,)
         max |x(T) - x(0)| / scale at the accepted cycle [-].
+    converged : ndarray of bool, shape (batch,)
+        Whether each variant reached its periodic steady state.
     """
 
     t_s: np.ndarray
@@ -389,6 +443,7 @@ class SteadyState:
     probes: np.ndarray
     iterations: np.ndarray
     periodic_residual: np.ndarray
+    converged: np.ndarray
 
 
 def solve_periodic(
@@ -396,6 +451,7 @@ def solve_periodic(
     x0: np.ndarray,
     samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,
     labels: list[str] | None = None,
+    raise_on_failure: bool = True,
 ) -> SteadyState:
     """Solve a batch of circuit variants to periodic steady state.
 
@@ -409,6 +465,8 @@ def solve_periodic(
         Steps per mains period (>= 2048 recommended).
     labels : list of str, optional
         Names of the variants, for error messages.
+    raise_on_failure : bool
+        If False, failed variants are reported in ``SteadyState.converged`` instead.
 
     Returns
     -------
@@ -432,7 +490,7 @@ def solve_periodic(
     info = np.zeros((batch, 3))
     _shoot_batch(params, x0, n, xs, pr, info)
     bad = np.flatnonzero(info[:, 0] != STATUS_OK)
-    if bad.size:
+    if bad.size and raise_on_failure:
         b = int(bad[0])
         name = labels[b] if labels else f"variant {b}"
         raise SolverError(
@@ -446,4 +504,5 @@ def solve_periodic(
         probes=pr,
         iterations=info[:, 1].astype(int),
         periodic_residual=info[:, 2],
+        converged=info[:, 0] == STATUS_OK,
     )

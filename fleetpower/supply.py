@@ -19,14 +19,13 @@ from .analysis import PowerQuality, power_quality
 from .devices import N_RECTIFIER, VT_V, diode_saturation_current_a, zener_knee
 from .errors import InputError, suggest
 from .inputs import ConverterOutput, Design
+from .limits import load_limit_set
 from .solver import DEFAULT_SAMPLES_PER_CYCLE, solve_periodic
 
 #: Mains factor at which stresses are assessed (+10 % mains, common practice, no source)
 STRESS_MAINS_FACTOR = 1.10
-#: Discharge thresholds after unplugging [V] and allowed times [s]
-#: (IEC 60335-1 cl. 22.5: 34 V after 1 s; IEC 62368-1 ES1 60 V after 2 s; from memory)
-DISCHARGE_CHECKS = ((60.0, 2.0, "IEC 62368-1 ES1 (from memory)"),
-                    (34.0, 1.0, "IEC 60335-1 cl. 22.5 (from memory)"))
+#: Limit sets whose plug-pin discharge rows the stress check applies (data/limits/)
+DISCHARGE_SETS = ("iec62368-1-discharge", "iec60335-1-discharge")
 #: Usual inrush-resistor range for droppers [ohm] (common practice, no source)
 INRUSH_RESISTOR_RANGE_OHM = (10.0, 30.0)
 
@@ -265,12 +264,33 @@ def _state_results(design, cases, sol) -> list[StateResult]:
     return results
 
 
+def simulate_cases(
+    design: Design,
+    cases: list[tuple[str, float, float | None]],
+    samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,
+) -> list[StateResult]:
+    """Solve (state, mains factor, output-current override or None) cases in one batch."""
+    rows, x0s, full = [], [], []
+    for state, factor, load in cases:
+        if state not in design.states:
+            raise InputError(
+                design.source, "states", f"unknown state {state!r}{suggest(state, design.states)}"
+            )
+        p, x0 = circuit_rows(design, state, factor, load)
+        load_a = design.load_current_a(state) if load is None else load
+        full.append((state, factor, load_a, p))
+        rows.append(p)
+        x0s.append(x0)
+    labels = [f"{design.name} / {s} at {f:.2f}x mains" for s, f, _, _ in full]
+    sol = solve_periodic(np.array(rows), np.array(x0s), samples_per_cycle, labels)
+    return _state_results(design, full, sol)
+
+
 def simulate(
     design: Design,
     states: list[str] | None = None,
     mains_factors: tuple[float, ...] = (1.0,),
     samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,
-    loads_a: dict[str, float] | None = None,
 ) -> list[StateResult]:
     """Simulate states of a design to periodic steady state, all in one batch.
 
@@ -283,8 +303,6 @@ def simulate(
         Mains voltage multipliers; every state is solved at each.
     samples_per_cycle : int
         Samples (and integration steps) per mains cycle.
-    loads_a : dict, optional
-        Output-current overrides per state [A].
 
     Returns
     -------
@@ -292,23 +310,8 @@ def simulate(
         Ordered by mains factor, then state.
     """
     states = list(design.states) if states is None else list(states)
-    for s in states:
-        if s not in design.states:
-            raise InputError(
-                design.source, "states", f"unknown state {s!r}{suggest(s, design.states)}"
-            )
-    cases, rows, x0s = [], [], []
-    for factor in mains_factors:
-        for s in states:
-            load = None if loads_a is None else loads_a.get(s)
-            p, x0 = circuit_rows(design, s, factor, load)
-            load_a = design.load_current_a(s) if load is None else load
-            cases.append((s, factor, load_a, p))
-            rows.append(p)
-            x0s.append(x0)
-    labels = [f"{design.name} / {s} at {f:.2f}x mains" for s, f, _, _ in cases]
-    sol = solve_periodic(np.array(rows), np.array(x0s), samples_per_cycle, labels)
-    return _state_results(design, cases, sol)
+    cases = [(s, f, None) for f in mains_factors for s in states]
+    return simulate_cases(design, cases, samples_per_cycle)
 
 
 # ----------------------------------------------------------------------------------
@@ -329,14 +332,8 @@ def max_deliverable_current_a(
     lo = 0.0
     for _ in range(rounds):
         loads = np.linspace(lo, hi, points)
-        rows, x0s = [], []
-        for load in loads:
-            p, x0 = circuit_rows(design, state, mains_factor, float(load))
-            rows.append(p)
-            x0s.append(x0)
-        sol = solve_periodic(np.array(rows), np.array(x0s))
-        vo_min = sol.probes[:, :, c.PROBES.index("v_o_v")].min(axis=1)
-        ok = vo_min >= design.output.voltage + design.output.dropout
+        res = simulate_cases(design, [(state, mains_factor, float(x)) for x in loads])
+        ok = np.array([r.in_regulation for r in res])
         if not ok[0]:
             return 0.0
         last = int(np.flatnonzero(ok)[-1])
@@ -413,11 +410,15 @@ def hand_estimate(design: Design, simulated_max_a: float) -> HandEstimate | None
     rule = "half-wave: I_dc = V/(2 Xc)" if half else "bridge: I_dc = V/Xc"
     sine_avg = (math.sqrt(2) / math.pi if half else 2 * math.sqrt(2) / math.pi) * i_rms
     pump = charge_pump_limit_a(design)
+    if half:
+        sine_text = "the mean of a half-wave rectified sine is Ipk/pi, not Irms/2"
+        clamp_text = "the clamp takes Vz + Vf off the capacitor's 2 Vpk charge swing"
+    else:
+        sine_text = "the mean of a full-wave rectified sine is 2 Ipk/pi = 0.90 Irms, not Irms"
+        clamp_text = "the output voltage and two diode drops come off the charge swing"
     lines = [
-        f"the mean of a rectified sine is Ipk/pi, not Irms/2: {sine_avg * 1e3:.1f} mA "
-        f"({100 * (sine_avg / est - 1):+.1f} %)",
-        f"the clamp takes Vz + Vf off the capacitor's charge swing: {pump * 1e3:.1f} mA "
-        f"({100 * (pump / est - 1):+.1f} %)",
+        f"{sine_text}: {sine_avg * 1e3:.1f} mA ({100 * (sine_avg / est - 1):+.1f} %)",
+        f"{clamp_text}: {pump * 1e3:.1f} mA ({100 * (pump / est - 1):+.1f} %)",
         f"series resistor, bleeder, ripple and regulator headroom: "
         f"{simulated_max_a * 1e3:.1f} mA simulated ({100 * (simulated_max_a / est - 1):+.1f} %)",
     ]
@@ -454,6 +455,18 @@ def _rated(item, value, unit, rating, condition, note="") -> Stress:
 def discharge_time_s(v0_v: float, v_th_v: float, r_ohm: float, c_f: float) -> float:
     """Time [s] for an RC discharge from ``v0_v`` to fall below ``v_th_v``: RC ln(V0/Vth)."""
     return 0.0 if v0_v <= v_th_v else r_ohm * c_f * math.log(v0_v / v_th_v)
+
+
+def discharge_rules() -> list[tuple[float, float, str]]:
+    """(threshold [V], allowed time [s], source) of the shipped plug-pin discharge sets."""
+    rules = []
+    for name in DISCHARGE_SETS:
+        df = load_limit_set(name)
+        v_th = float(df.loc[df["quantity"] == "v_threshold_v", "limit"].iloc[0])
+        row = df.loc[df["quantity"] == "t_discharge_s"].iloc[0]
+        rules.append((v_th, float(row["limit"]),
+                      f"{row['edition']} {row['clause']} ({row['provenance']})"))
+    return rules
 
 
 def stresses(design: Design, stressed: list[StateResult]) -> list[Stress]:
@@ -500,7 +513,7 @@ def stresses(design: Design, stressed: list[StateResult]) -> list[Stress]:
     if cap is not None:
         pb = max(r.p_bleeder_w for r in stressed)
         out.append(_rated("bleeder dissipation", pb, "W", parts.bleeder_power_rating, cond))
-        for v_th, t_max, source in DISCHARGE_CHECKS:
+        for v_th, t_max, source in discharge_rules():
             t = discharge_time_s(v_cap, v_th, rb, cap)
             out.append(Stress(f"discharge to {v_th:.0f} V after unplugging", t, "s", t_max,
                               "pass" if t <= t_max else "fail",
