@@ -197,7 +197,9 @@ _OUTPUT = {
 
 
 def _fail(file: str, exc: ValidationError, prefix: tuple, model: type[BaseModel]) -> InputError:
-    err = exc.errors()[0]
+    errors = exc.errors()
+    # a misspelt key shows up both as unknown and as missing: name the misspelling
+    err = next((e for e in errors if e["type"] == "extra_forbidden"), errors[0])
     loc = prefix + tuple(str(p) for p in err["loc"])
     key = ".".join(loc)
     kind = err["type"]
