@@ -89,6 +89,31 @@ def cmd_limits(args) -> int:
     return 0
 
 
+def _progress_printer():
+    err = Console(stderr=True)
+
+    def show(done, total, name):
+        err.print(f"[dim]simulated {done}/{total}: {name}[/dim]")
+
+    return show if err.is_terminal else None
+
+
+def cmd_fleet(args) -> int:
+    from .fleet import evaluate_fleet, load_fleet, write_atomic
+    from .report import fleet_to_dict, render_fleet
+
+    spec = load_fleet(args.fleet)
+    result = evaluate_fleet(spec, progress=_progress_printer())
+    report = fleet_to_dict(result)
+    if args.csv:
+        write_atomic(args.csv, result.groups.to_csv(index=False))
+    if args.json:
+        print(json.dumps(report, indent=2))
+    else:
+        render_fleet(report, _console(args))
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="fleetpower",
@@ -102,6 +127,12 @@ def build_parser() -> argparse.ArgumentParser:
     u.add_argument("--limits", help="an extra limit-set file (CSV) to check against")
     u.add_argument("--width", type=int, help="terminal width in columns")
     u.set_defaults(func=cmd_unit)
+    fl = sub.add_parser("fleet", help="what a whole deployment draws and costs")
+    fl.add_argument("fleet", help="fleet file (TOML)")
+    fl.add_argument("--json", action="store_true", help="print one JSON object instead")
+    fl.add_argument("--csv", metavar="OUT", help="write the per-group table to this CSV file")
+    fl.add_argument("--width", type=int)
+    fl.set_defaults(func=cmd_fleet)
     lim = sub.add_parser("limits", help="list the shipped limit sets, or show one")
     lim.add_argument("set", nargs="?", help="a set id, or a limit file (CSV) to check")
     lim.add_argument("--json", action="store_true")

@@ -312,3 +312,129 @@ def render_unit(report: dict, console: Console) -> None:
     if report["warnings"]:
         console.print(Panel("\n".join(f"- {w}" for w in report["warnings"]), title="Warnings",
                             border_style="yellow", title_align="left"))
+
+
+# ----------------------------------------------------------------------------------
+# fleets
+# ----------------------------------------------------------------------------------
+def fleet_to_dict(r) -> dict:
+    """JSON-ready report of a :class:`fleetpower.fleet.FleetResult` (units in key names)."""
+    site = r.spec.site
+    out = {
+        "fleet": r.spec.name,
+        "file": r.spec.file,
+        "site": {"system": site.system_label, "v_ln_v": site.v_ln_v, "f_hz": site.f_hz,
+                 "isc_a": site.isc_a, "isc_source": site.isc_source,
+                 "currency": site.currency},
+        "units": r.units,
+        "summation": r.summation_label,
+        "peak_hour": r.peak_hour,
+        "peak_case": ("coincident case from diversity" if r.peak_hour < 0
+                      else f"hour {r.peak_hour:02d}:00-{r.peak_hour + 1:02d}:00"),
+        "p_kw": r.p_kw,
+        "q1_kvar": r.q1_kvar,
+        "q1_sense": "leading (capacitive)" if r.q1_kvar < 0 else "lagging (inductive)",
+        "s_kva": r.s_kva,
+        "s_e_kva": r.s_e_kva,
+        "pf": r.pf,
+        "dpf": r.dpf,
+        "phases": [
+            {"phase": f.phase, "p_kw": f.p_w / 1e3, "q1_kvar": f.q1_var / 1e3,
+             "s_kva": f.s_va / 1e3, "i_rms_a": f.i_rms_a, "i1_a": f.i1_a,
+             "thd_i_pct": f.thd_i_pct, "k_factor": f.k_factor, "f_hl": f.f_hl,
+             "harmonics_a": [abs(x) for x in f.i_h_a[1:]]}
+            for f in r.phases
+        ],
+        "neutral": {"i_rms_a": r.neutral_i_rms_a, "i1_a": r.neutral_i1_a,
+                    "i3_a": float(abs(r.neutral_i_h_a[3])),
+                    "harmonics_a": [abs(x) for x in r.neutral_i_h_a[1:]]},
+        "tdd_pct": r.tdd_pct,
+        "i_l_a": r.i_l_a,
+        "i_l_source": r.i_l_source,
+        "e_kwh_per_year": r.e_kwh_per_year,
+        "energy_cost_per_year": r.energy_cost,
+        "demand_cost_per_year": r.demand_cost,
+        "reactive_cost_per_year": r.reactive_cost,
+        "total_cost_per_year": r.total_cost_per_year,
+        "co2_kg_per_year": r.co2_kg_per_year,
+        "compliance": r.compliance,
+        "conductors": r.conductors,
+        "groups": r.groups.to_dict("records"),
+        "hourly": r.hourly.to_dict("records"),
+        "warnings": list(r.warnings),
+    }
+    return _clean(out)
+
+
+def render_fleet(d: dict, console: Console) -> None:
+    """Terminal summary of a fleet report dict."""
+    cur = d["site"]["currency"]
+    console.print(Panel(Text.assemble(
+        ("fleetpower fleet  ", "bold"), (d["fleet"], "bold cyan"),
+        f"\n{d['units']:,} units on a {d['site']['system']} "
+        f"{fmt(d['site']['v_ln_v'], 3, 'V')} {fmt(d['site']['f_hz'], 3, 'Hz')} supply; "
+        f"peak: {d['peak_case']}"), box=box.HEAVY, expand=False))
+    t = Table(box=box.SIMPLE_HEAD, title="At the peak", title_justify="left", pad_edge=False)
+    t.add_column("")
+    for p in d["phases"]:
+        t.add_column(p["phase"], justify="right")
+    t.add_column("neutral", justify="right")
+    t.add_column("total", justify="right", style="bold")
+    t.add_row("P real", *[fmt(p["p_kw"], 3, "kW") for p in d["phases"]], "",
+              fmt(d["p_kw"], 4, "kW"))
+    t.add_row("Q1", *[fmt(p["q1_kvar"], 3, "kvar") for p in d["phases"]], "",
+              fmt(d["q1_kvar"], 4, "kvar"))
+    t.add_row("S apparent", *[fmt(p["s_kva"], 3, "kVA") for p in d["phases"]], "",
+              fmt(d["s_kva"], 4, "kVA"))
+    t.add_row("I rms", *[fmt(p["i_rms_a"], 3, "A") for p in d["phases"]],
+              fmt(d["neutral"]["i_rms_a"], 3, "A"), "")
+    t.add_row("I fundamental", *[fmt(p["i1_a"], 3, "A") for p in d["phases"]],
+              fmt(d["neutral"]["i1_a"], 3, "A"), "")
+    t.add_row("THD of current", *[fmt(p["thd_i_pct"], 3, "%") for p in d["phases"]], "", "")
+    t.add_row("K-factor", *[fmt(p["k_factor"], 3) for p in d["phases"]], "", "")
+    t.add_row("F_HL", *[fmt(p["f_hl"], 3) for p in d["phases"]], "", "")
+    console.print(t)
+    console.print(Text(
+        f"PF {d['pf']:.3f}   DPF {d['dpf']:.3f}   Q1 {d['q1_sense']}   "
+        + (f"S_e {fmt(d['s_e_kva'], 4, 'kVA')} (IEEE 1459)   " if d.get("s_e_kva") else "")
+        + f"TDD {d['tdd_pct']:.2f} % of I_L {fmt(d['i_l_a'], 3, 'A')}"))
+    console.print(Text(f"summation: {d['summation']}", style="dim"))
+    y = Table(box=box.SIMPLE_HEAD, title="Per year", title_justify="left", pad_edge=False)
+    y.add_column("")
+    y.add_column("value", justify="right")
+    y.add_row("energy", fmt(d["e_kwh_per_year"], 4, "kWh"))
+    y.add_row("energy cost", fmt(d["energy_cost_per_year"], 4, cur))
+    y.add_row("demand cost", fmt(d["demand_cost_per_year"], 4, cur))
+    y.add_row("reactive-energy cost", fmt(d["reactive_cost_per_year"], 4, cur))
+    y.add_row("total", fmt(d["total_cost_per_year"], 4, cur), style="bold")
+    y.add_row("CO2", fmt(d["co2_kg_per_year"], 4, "kg"))
+    console.print(y)
+    g = Table(box=box.SIMPLE_HEAD, title="Groups", title_justify="left", pad_edge=False)
+    for col in ("group", "count", "phase", "mean W/unit", "kWh/yr", f"cost/yr {cur}"):
+        g.add_column(col, justify="left" if col == "group" else "right")
+    for row in d["groups"]:
+        g.add_row(row["group"], f"{row['count']:,}", row["phase"],
+                  fmt(row["p_unit_mean_w"], 3), fmt(row["e_kwh_per_year"], 4),
+                  fmt(row["energy_cost_per_year"], 4))
+    console.print(g)
+    if d["conductors"]:
+        c = Table(box=box.SIMPLE_HEAD, title="Feeder conductors", title_justify="left",
+                  pad_edge=False)
+        for col in ("conductor", "I rms", "rating", "used", "verdict"):
+            c.add_column(col, justify="left" if col in ("conductor", "verdict") else "right")
+        for row in d["conductors"]:
+            style = {"over": "bold red", "high": "yellow"}.get(row["verdict"], "green")
+            c.add_row(row["conductor"], fmt(row["i_rms_a"], 3, "A"), fmt(row["rating_a"], 3, "A"),
+                      f"{row['used_pct']:.0f} %", Text(row["verdict"].upper(), style=style))
+        console.print(c)
+    if d["compliance"]:
+        fails = [r for r in d["compliance"] if r["verdict"] == "fail"]
+        worst = max(d["compliance"], key=lambda r: r["used_pct"] or 0.0)
+        console.print(Text(
+            f"IEEE 519 at the PCC (I_sc {fmt(d['site']['isc_a'], 3, 'A')}, "
+            f"{d['site']['isc_source']}): {len(fails)} of {len(d['compliance'])} limits "
+            f"exceeded; highest use {worst['quantity']} {worst['used_pct']:.0f} % "
+            f"({'FAIL' if fails else 'PASS'})"))
+    if d["warnings"]:
+        console.print(Panel("\n".join(f"- {w}" for w in d["warnings"]), title="Warnings",
+                            border_style="yellow", title_align="left"))
