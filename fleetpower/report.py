@@ -144,7 +144,7 @@ def fmt(x: float | None, digits: int = 3, unit: str = "") -> str:
     """Engineering-friendly number with ``digits`` significant figures and a unit."""
     if x is None:
         return "—"
-    if x == 0:
+    if abs(x) < 1e-9:  # below any current or power the tool resolves
         s = "0"
     else:
         mag = math.floor(math.log10(abs(x)))

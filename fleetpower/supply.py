@@ -207,7 +207,7 @@ class StateResult:
 def _state_results(design, cases, sol) -> list[StateResult]:
     idx = {name: k for k, name in enumerate(c.PROBES)}
     results = []
-    for b, (state, factor, load_a, params) in enumerate(cases):
+    for b, (state, factor, load_a, _params) in enumerate(cases):
         pr = sol.probes[b]
         mean = pr.mean(axis=0)
         v = pr[:, idx["v_source_v"]]
