@@ -114,6 +114,76 @@ def cmd_fleet(args) -> int:
     return 0
 
 
+def cmd_compare(args) -> int:
+    from .compare import compare as run_compare
+    from .compare import comparison_table
+    from .fleet import write_atomic
+    from .report import compare_markdown, compare_to_dict, render_compare
+
+    if args.plots:
+        from .plots import require_matplotlib
+
+        require_matplotlib()
+    err = Console(stderr=True)
+
+    def progress(done, total, name):
+        if err.is_terminal:
+            err.print(f"[dim]candidate {done}/{total}: {name}[/dim]")
+
+    cmp = run_compare(args.fleet, args.design, args.years, args.rate, args.escalation,
+                      progress=progress)
+    report = compare_to_dict(cmp)
+    if args.csv:
+        from pathlib import Path
+
+        out = Path(args.csv)
+        write_atomic(out / "designs.csv", comparison_table(cmp).to_csv(index=False))
+        for x, c in zip(report["designs"], cmp.candidates, strict=True):
+            write_atomic(out / f"groups_{x['letter']}_{x['design']}.csv",
+                         c.fleet.groups.to_csv(index=False))
+    if args.markdown:
+        write_atomic(args.markdown, compare_markdown(report))
+    if args.plots:
+        from .plots import comparison_figures
+
+        comparison_figures(cmp, args.plots)
+    if args.json:
+        print(json.dumps(report, indent=2))
+    else:
+        render_compare(report, _console(args))
+    return 0
+
+
+def cmd_demo(args) -> int:
+    from ._resources import examples_dir
+
+    ex = examples_dir()
+    args.fleet = str(ex / DEMO_FLEET)
+    args.design = [str(ex / d) for d in DEMO_DESIGNS]
+    for name in ("years", "rate", "escalation"):
+        setattr(args, name, None)
+    console = _console(args)
+    if not args.json:
+        console.print(f"[bold]Demo:[/bold] the bundled scenario {DEMO_FLEET} with "
+                      f"{len(DEMO_DESIGNS)} candidate supplies for its desk sensors "
+                      f"(files in {ex})")
+    return cmd_compare(args)
+
+
+#: the bundled scenario `fleetpower demo` runs
+DEMO_FLEET = "harbour-office.toml"
+DEMO_DESIGNS = ("sensor-dropper-230.toml", "desk-sensor-dropper-lean.toml",
+                "desk-sensor-smps-230.toml")
+
+
+def _add_outputs(p) -> None:
+    p.add_argument("--json", action="store_true", help="print one JSON object instead")
+    p.add_argument("--csv", metavar="DIR", help="write per-design and per-group tables here")
+    p.add_argument("--markdown", metavar="FILE", help="write a report for a tender file")
+    p.add_argument("--plots", metavar="DIR", help="write figures (needs fleetpower[plot])")
+    p.add_argument("--width", type=int)
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="fleetpower",
@@ -133,6 +203,18 @@ def build_parser() -> argparse.ArgumentParser:
     fl.add_argument("--csv", metavar="OUT", help="write the per-group table to this CSV file")
     fl.add_argument("--width", type=int)
     fl.set_defaults(func=cmd_fleet)
+    cp = sub.add_parser("compare", help="candidate designs over the same fleet's life")
+    cp.add_argument("fleet", help="fleet file (TOML)")
+    cp.add_argument("--design", action="append", required=True, metavar="DESIGN.toml",
+                    help="a candidate design (repeat); it replaces designs of its role")
+    cp.add_argument("--years", type=int, help="service life [years] (default 10)")
+    cp.add_argument("--rate", type=float, help="discount rate per year, e.g. 0.05")
+    cp.add_argument("--escalation", type=float, help="energy price escalation per year")
+    _add_outputs(cp)
+    cp.set_defaults(func=cmd_compare)
+    dm = sub.add_parser("demo", help="run the bundled scenario end to end")
+    _add_outputs(dm)
+    dm.set_defaults(func=cmd_demo)
     lim = sub.add_parser("limits", help="list the shipped limit sets, or show one")
     lim.add_argument("set", nargs="?", help="a set id, or a limit file (CSV) to check")
     lim.add_argument("--json", action="store_true")

@@ -106,6 +106,7 @@ class FleetSpec:
     summation: str = "phasor"
     designs: dict[Path, Design] = field(default_factory=dict)
     nominal_mains: dict[Path, Mains] = field(default_factory=dict)
+    economics: dict = field(default_factory=dict)
 
 
 _SITE_KEYS = {"system", "voltage", "frequency", "short_circuit_current", "transformer_rating",
@@ -114,7 +115,8 @@ _SITE_KEYS = {"system", "voltage", "frequency", "short_circuit_current", "transf
 _TARIFF_KEYS = {"energy_price", "energy_price_by_hour", "demand_price", "demand_basis",
                 "reactive_price", "reactive_billing", "co2_kg_per_kwh"}
 _GROUP_KEYS = {"name", "design", "count", "phase", "hours", "profile", "diversity"}
-_TOP_KEYS = {"name", "site", "tariff", "group", "inventory", "summation"}
+_TOP_KEYS = {"name", "site", "tariff", "group", "inventory", "summation", "economics"}
+_ECON_KEYS = {"service_life_years", "discount_rate", "energy_escalation"}
 
 
 def _unknown(file, where, data, known):
@@ -382,8 +384,17 @@ def load_fleet(path: str | Path) -> FleetSpec:
         raise InputError(file, "group", "the fleet has no groups (add [[group]] or inventory)")
     designs = {k: v for k, v in cache.items() if isinstance(k, Path)}
     nominal = {k[0]: v for k, v in cache.items() if isinstance(k, tuple)}
+    econ = data.get("economics", {})
+    if not isinstance(econ, dict):
+        raise InputError(file, "economics", "expected a table")
+    _unknown(file, "economics.", econ, _ECON_KEYS)
+    econ = {k: _number(file, f"economics.{k}", v, lo=0) for k, v in econ.items()}
+    if "service_life_years" in econ:
+        econ["service_life_years"] = _number(file, "economics.service_life_years",
+                                             econ["service_life_years"], positive=True,
+                                             integer=True)
     return FleetSpec(str(data.get("name", path.stem)), file, site, tariff, groups, summation,
-                     designs, nominal)
+                     designs, nominal, econ)
 
 
 # ----------------------------------------------------------------------------------

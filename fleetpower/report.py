@@ -438,3 +438,154 @@ def render_fleet(d: dict, console: Console) -> None:
     if d["warnings"]:
         console.print(Panel("\n".join(f"- {w}" for w in d["warnings"]), title="Warnings",
                             border_style="yellow", title_align="left"))
+
+
+# ----------------------------------------------------------------------------------
+# comparisons
+# ----------------------------------------------------------------------------------
+#: rows of the comparison summary: (label, key, significant digits, unit or currency flag)
+COMPARE_ROWS = (
+    ("per unit", None, 0, ""),
+    ("price", "unit_price", 3, "$"),
+    ("standby P", "standby_p_w", 3, "W"),
+    ("active P", "active_p_w", 3, "W"),
+    ("apparent S (max)", "s_va", 3, "VA"),
+    ("power factor", "pf", 3, ""),
+    ("THD of current", "thd_i_pct", 3, "%"),
+    ("per fleet", None, 0, ""),
+    ("units replaced", "replaced_units", 0, ""),
+    ("real P at peak", "fleet_p_kw", 4, "kW"),
+    ("apparent S at peak", "fleet_s_kva", 4, "kVA"),
+    ("Q1 at peak", "fleet_q1_kvar", 4, "kvar"),
+    ("worst phase I", "phase_i_rms_a", 3, "A"),
+    ("neutral I", "neutral_i_rms_a", 3, "A"),
+    ("energy per year", "e_kwh_per_year", 4, "kWh"),
+    ("running cost/year", "running_cost_per_year", 4, "$"),
+    ("CO2 per year", "co2_kg_per_year", 4, "kg"),
+    ("over the life", None, 0, ""),
+    ("purchase", "purchase_cost", 4, "$"),
+    ("lifetime cost", "lifetime_cost", 4, "$"),
+)
+
+
+def compare_to_dict(cmp) -> dict:
+    """JSON-ready report of a :class:`fleetpower.compare.Comparison`."""
+    from .compare import comparison_table
+
+    table = comparison_table(cmp)
+    designs = []
+    for c, row in zip(cmp.candidates, table.to_dict("records"), strict=True):
+        d = dict(row)
+        d["letter"] = chr(ord("A") + len(designs))
+        d["file"] = str(c.path)
+        d["safety"] = ("isolated" if c.design.is_isolated else
+                       "NOT isolated: output at mains potential")
+        d["failures"] = c.failures
+        d["unit_compliance"] = c.unit_compliance
+        d["fleet_compliance"] = c.fleet.compliance
+        d["conductors"] = c.fleet.conductors
+        d["lifetime_by_year"] = [
+            {"year": int(y), "cost": r.cost, "cost_cumulative_discounted":
+             r.cost_cumulative_discounted}
+            for y, r in c.lifetime.iterrows()
+        ]
+        d["groups"] = c.fleet.groups.to_dict("records")
+        designs.append(d)
+    return _clean({
+        "fleet": cmp.fleet_name,
+        "file": cmp.fleet_file,
+        "currency": cmp.currency,
+        "service_life_years": cmp.years,
+        "discount_rate": cmp.rate,
+        "energy_escalation": cmp.escalation,
+        "designs": designs,
+        "paybacks": cmp.paybacks,
+        "recommendation": cmp.recommendation,
+        "caution": (None if all(c.design.is_isolated for c in cmp.candidates)
+                    else "Non-isolated candidates put everything on their output at mains "
+                         "potential; enclose them fully and follow local codes and licensed "
+                         "practice."),
+    })
+
+
+def _cell(d: dict, key: str, digits: int, unit: str, currency: str) -> str:
+    v = d[key]
+    if key == "replaced_units":
+        return f"{int(v):,}"
+    unit = currency if unit == "$" else unit
+    return fmt(v, digits, unit)
+
+
+def render_compare(d: dict, console: Console) -> None:
+    """Terminal summary of a comparison; readable at 80 columns and without colour."""
+    cur = d["currency"]
+    console.print(Panel(Text.assemble(
+        ("fleetpower compare  ", "bold"), (d["fleet"], "bold cyan"),
+        f"\n{len(d['designs'])} candidates on the same fleet; "
+        f"{d['service_life_years']} years at {100 * d['discount_rate']:.1f} % discount, "
+        f"energy +{100 * d['energy_escalation']:.1f} %/yr"), box=box.HEAVY, expand=False))
+    legend = Table(box=None, show_header=False, pad_edge=False)
+    legend.add_column(style="bold")
+    legend.add_column(overflow="fold")
+    for x in d["designs"]:
+        legend.add_row(x["letter"], f"{x['name']} ({x['design']}); {x['safety']}")
+    console.print(legend)
+    t = Table(box=box.SIMPLE_HEAD, pad_edge=False)
+    t.add_column("", min_width=18)
+    for x in d["designs"]:
+        t.add_column(x["letter"], justify="right")
+    for label, key, digits, unit in COMPARE_ROWS:
+        if key is None:
+            t.add_row(Text(label, style="bold underline"), *[""] * len(d["designs"]))
+            continue
+        t.add_row(label, *[_cell(x, key, digits, unit, cur) for x in d["designs"]])
+    t.add_row("failed checks", *[str(x["failed_checks"]) for x in d["designs"]])
+    t.add_row("verdict", *[Text("FAILS" if x["failed_checks"] else "passes",
+                                style="bold red" if x["failed_checks"] else "green")
+                           for x in d["designs"]])
+    console.print(t)
+    for x in d["designs"]:
+        if x["failures"]:
+            console.print(Text(f"{x['letter']} fails: " + "; ".join(x["failures"]),
+                               style="red"))
+    console.print(Text("What drives the difference (largest loss in standby):", style="bold"))
+    for x in d["designs"]:
+        console.print(Text(f"  {x['letter']}: {x['driver']}"))
+    for pb in d["paybacks"]:
+        console.print(Text(f"Payback: {pb['reason']}"))
+    if d.get("caution"):
+        console.print(Panel(Text(d["caution"], style="bold"), title="SAFETY",
+                            border_style="red", box=box.DOUBLE))
+    console.print(Panel(Text(d["recommendation"], style="bold"), title="Recommendation",
+                        title_align="left", box=box.ROUNDED))
+
+
+def compare_markdown(d: dict) -> str:
+    """A report a buyer can paste into a tender file (GitHub-flavoured Markdown)."""
+    cur = d["currency"]
+    lines = [f"# {d['fleet']}: supply options compared", "",
+             f"Service life {d['service_life_years']} years, discount rate "
+             f"{100 * d['discount_rate']:.1f} %, energy price escalation "
+             f"{100 * d['energy_escalation']:.1f} % per year. Figures from fleetpower "
+             "simulations of each design on the same fleet, phases, profiles and tariff.", "",
+             "| | " + " | ".join(f"{x['letter']}: {x['name']}" for x in d["designs"]) + " |",
+             "|---|" + "---:|" * len(d["designs"])]
+    for label, key, digits, unit in COMPARE_ROWS:
+        if key is None:
+            lines.append(f"| **{label}** |" + " |" * len(d["designs"]))
+            continue
+        lines.append(f"| {label} | " + " | ".join(_cell(x, key, digits, unit, cur)
+                                                 for x in d["designs"]) + " |")
+    lines.append("| safety | " + " | ".join(x["safety"] for x in d["designs"]) + " |")
+    lines.append("| failed checks | " + " | ".join(
+        (", ".join(x["failures"]) or "none") for x in d["designs"]) + " |")
+    lines += ["", "## Recommendation", "", d["recommendation"], ""]
+    if d["paybacks"]:
+        lines += ["## Payback", ""] + [f"- {p['reason']}" for p in d["paybacks"]] + [""]
+    lines += ["## What drives the difference", ""] + \
+        [f"- {x['letter']}: {x['driver']}" for x in d["designs"]] + [""]
+    if d.get("caution"):
+        lines += ["## Safety", "", d["caution"], ""]
+    lines += ["Limit verdicts use tables recorded in fleetpower's data/limits/ (mostly from "
+              "memory); they are an engineering aid, not a certification.", ""]
+    return "\n".join(lines)

@@ -1,0 +1,258 @@
+"""Compare candidate designs over one fleet's life: the procurement decision.
+
+Each candidate replaces the fleet's designs of the same ``role``; every other group, the
+phases, the profiles and the tariff stay the same, so the candidates are compared on the
+same fleet. Per candidate: the unit's own figures and compliance, the fleet's figures,
+lifetime cost of ownership (purchase + discounted running cost), the payback year of a
+dearer design against the cheapest to buy, and a one-line recommendation with its reason.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+import pandas as pd
+
+from . import economics as E
+from .compliance import lightest_state, rated_state, unit_compliance
+from .errors import InputError
+from .fleet import FleetResult, FleetSpec, evaluate_fleet, load_fleet, unit_catalogue
+from .inputs import Design, load_design
+from .supply import UnitAnalysis, analyse_unit
+
+DEFAULT_YEARS = 10
+DEFAULT_RATE = 0.05
+DEFAULT_ESCALATION = 0.02
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One candidate design evaluated on the fleet."""
+
+    label: str
+    path: Path
+    design: Design
+    unit: UnitAnalysis
+    unit_compliance: list[dict]
+    fleet: FleetResult
+    replaced_units: int
+    purchase_cost: float
+    annual_cost: float
+    lifetime: pd.DataFrame  # economics.lifetime_cost table
+    driver: str
+
+    @property
+    def lifetime_cost(self) -> float:
+        return float(self.lifetime["cost_cumulative_discounted"].iloc[-1])
+
+    @property
+    def failures(self) -> list[str]:
+        """Every failed verdict: unit limits, stresses, fleet limits, conductors."""
+        out = [f"{r['set']} {r['quantity']}" for r in self.unit_compliance
+               if r["verdict"] == "fail"]
+        out += [f"stress: {s.item}" for s in self.unit.stresses if s.verdict == "fail"]
+        out += [f"IEEE 519 {r['quantity']}" for r in self.fleet.compliance
+                if r["verdict"] == "fail"]
+        out += [f"{c['conductor']} conductor {c['used_pct']:.0f} %"
+                for c in self.fleet.conductors if c["verdict"] == "over"]
+        return out
+
+
+@dataclass(frozen=True)
+class Comparison:
+    fleet_name: str
+    fleet_file: str
+    currency: str
+    years: int
+    rate: float
+    escalation: float
+    candidates: list[Candidate]
+    paybacks: list[dict]
+    recommendation: str
+
+
+def replace_role(spec: FleetSpec, path: Path, design: Design) -> tuple[FleetSpec, int]:
+    """The fleet with every group whose design has ``design.role`` switched to ``design``.
+
+    Returns the new spec and the number of units replaced.
+    """
+    if not design.role:
+        raise InputError(design.source, "role", "a candidate design needs a role naming "
+                         "which of the fleet's designs it replaces")
+    site_mains = design.mains.model_copy(update={"voltage": spec.site.v_ln_v,
+                                                 "frequency": spec.site.f_hz})
+    on_site = design.model_copy(update={"mains": site_mains})
+    groups, replaced = [], 0
+    for g in spec.groups:
+        if spec.designs[g.design_path].role == design.role:
+            missing = [s for s in g.states if s not in design.states]
+            if missing:
+                raise InputError(design.source, "states",
+                                 f"lacks state(s) {', '.join(missing)} that group "
+                                 f"'{g.name}' of the fleet uses")
+            groups.append(replace(g, design_path=path))
+            replaced += g.count
+        else:
+            groups.append(g)
+    if not replaced:
+        roles = sorted({d.role for d in spec.designs.values() if d.role})
+        raise InputError(design.source, "role", f"role {design.role!r} matches no group of "
+                         f"the fleet (its roles: {', '.join(roles) or 'none'})")
+    used = {g.design_path for g in groups}
+    designs = {p: d for p, d in spec.designs.items() if p in used and p != path}
+    designs[path] = on_site
+    nominal = dict(spec.nominal_mains)
+    nominal[path] = design.mains
+    return replace(spec, groups=groups, designs=designs, nominal_mains=nominal), replaced
+
+
+def _driver(unit: UnitAnalysis) -> str:
+    """The largest loss of the standby (lightest) state, as a sentence."""
+    light = lightest_state(unit.design)
+    res = next((r for r in unit.states if r.state == light), unit.states[0])
+    name, watts = max(res.losses_w.items(), key=lambda kv: kv[1])
+    return (f"{name} at {res.state}: {watts:.2f} W of {res.pq.p_w:.2f} W per unit")
+
+
+def compare(
+    fleet_path: str | Path,
+    design_paths: list[str | Path],
+    years: int | None = None,
+    rate: float | None = None,
+    escalation: float | None = None,
+    progress=None,
+) -> Comparison:
+    """Evaluate each candidate design on the same fleet and over the same life.
+
+    Parameters
+    ----------
+    fleet_path : path
+        Fleet file.
+    design_paths : list of path
+        Candidate design files (at least one); each must have a ``role``.
+    years, rate, escalation : optional
+        Service life [year], discount rate [1/year] and energy-price escalation
+        [1/year]; defaults 10, 5 % and 2 % (or the fleet file's ``[economics]``).
+
+    Notes
+    -----
+    Purchase cost is the candidate's ``unit_price`` times the units it replaces (other
+    groups are the same for every candidate and are left out of the purchase). Running
+    cost is the whole fleet's annual energy, demand and reactive-energy cost. Lifetime
+    cost = purchase + Σ_k running·(1+g)^(k−1)/(1+r)^k over the life
+    (:func:`fleetpower.economics.lifetime_cost`).
+    """
+    if not design_paths:
+        raise InputError(str(fleet_path), "--design", "name at least one candidate design")
+    spec = load_fleet(fleet_path)
+    econ = spec.economics
+    years = int(econ.get("service_life_years", DEFAULT_YEARS) if years is None else years)
+    rate = float(econ.get("discount_rate", DEFAULT_RATE) if rate is None else rate)
+    esc = float(econ.get("energy_escalation", DEFAULT_ESCALATION)
+                if escalation is None else escalation)
+    if years <= 0:
+        raise InputError(str(fleet_path), "years", "the service life must be at least 1 year")
+    candidates = []
+    seen = set()
+    for k, dp in enumerate(design_paths):
+        path = Path(dp).resolve()
+        if path in seen:
+            raise InputError(str(dp), "--design", "named twice")
+        seen.add(path)
+        design = load_design(path)
+        new_spec, replaced = replace_role(spec, path, design)
+        on_site = new_spec.designs[path]
+        if progress:
+            progress(k + 1, len(design_paths), design.name)
+        unit = analyse_unit(on_site)
+        uc = unit_compliance(on_site, unit)
+        result = evaluate_fleet(new_spec, unit_catalogue(new_spec.designs))
+        price = design.unit_price
+        if price is None:
+            raise InputError(design.source, "unit_price", "a candidate needs a unit_price to "
+                             "be compared over its life")
+        purchase = price * replaced
+        annual = result.total_cost_per_year
+        life = E.lifetime_cost(purchase, annual, rate, years, esc)
+        candidates.append(Candidate(
+            label=path.stem, path=path, design=on_site, unit=unit, unit_compliance=uc,
+            fleet=result, replaced_units=replaced, purchase_cost=purchase,
+            annual_cost=annual, lifetime=life, driver=_driver(unit)))
+    paybacks = []
+    cheapest = min(candidates, key=lambda c: (c.purchase_cost, c.label))
+    for c in candidates:
+        if c is cheapest:
+            continue
+        pb = E.payback_year(c.lifetime["cost_cumulative_discounted"].to_numpy(),
+                            cheapest.lifetime["cost_cumulative_discounted"].to_numpy())
+        paybacks.append({"design": c.label, "against": cheapest.label,
+                         "payback_year": pb.year, "reason":
+                         pb.reason.replace("design a", c.label).replace("design b",
+                                                                        cheapest.label)})
+    return Comparison(
+        fleet_name=spec.name, fleet_file=spec.file, currency=spec.site.currency,
+        years=years, rate=rate, escalation=esc, candidates=candidates, paybacks=paybacks,
+        recommendation=recommend(candidates, years, spec.site.currency),
+    )
+
+
+def recommend(candidates: list[Candidate], years: int, currency: str) -> str:
+    """One line: the lowest lifetime cost among candidates with no failed verdict.
+
+    If every candidate fails something, the one with the fewest failures (then lowest
+    cost) is named, and the line says it still fails.
+    """
+    clean = [c for c in candidates if not c.failures]
+    pool = clean or sorted(candidates, key=lambda c: len(c.failures))[:1]
+    best = min(pool, key=lambda c: (c.lifetime_cost, c.label))
+    others = [c for c in candidates if c is not best]
+    why = f"lowest {years}-year cost of ownership ({best.lifetime_cost:,.0f} {currency})"
+    if not clean:
+        why = f"fewest failed checks ({len(best.failures)}: {best.failures[0]}), then cost"
+    elif any(c.failures for c in others):
+        failing = [c for c in others if c.failures]
+        why += "; " + "; ".join(f"{c.label} fails {c.failures[0]}" for c in failing[:2])
+    cheaper = [c for c in others if c.lifetime_cost < best.lifetime_cost]
+    if cheaper and clean:
+        why += f" (cheaper {cheaper[0].label} is excluded by its failed checks)"
+    iso = "isolated" if best.design.is_isolated else "NOT isolated: enclose it fully"
+    return f"Choose {best.label} ({best.design.name}): {why}; {iso}."
+
+
+def comparison_table(cmp: Comparison) -> pd.DataFrame:
+    """Per-design table (one row per candidate, units in column names)."""
+    rows = []
+    for c in cmp.candidates:
+        d = c.design
+        by = {r.state: r for r in c.unit.states}
+        light = by[lightest_state(d)]
+        heavy = by[max(d.states, key=d.load_current_a)]
+        rated = by[rated_state(d)]
+        worst = max(c.fleet.phases, key=lambda f: f.i_rms_a)
+        rows.append({
+            "design": c.label,
+            "name": d.name,
+            "topology": d.topology,
+            "isolated": d.is_isolated,
+            "unit_price": d.unit_price,
+            "standby_p_w": light.pq.p_w,
+            "active_p_w": heavy.pq.p_w,
+            "s_va": max(r.pq.s_va for r in c.unit.states),
+            "pf": rated.pq.pf,
+            "thd_i_pct": rated.pq.thd_i_pct,
+            "replaced_units": c.replaced_units,
+            "fleet_p_kw": c.fleet.p_kw,
+            "fleet_s_kva": c.fleet.s_kva,
+            "fleet_q1_kvar": c.fleet.q1_kvar,
+            "phase_i_rms_a": worst.i_rms_a,
+            "neutral_i_rms_a": c.fleet.neutral_i_rms_a,
+            "e_kwh_per_year": c.fleet.e_kwh_per_year,
+            "running_cost_per_year": c.annual_cost,
+            "co2_kg_per_year": c.fleet.co2_kg_per_year,
+            "purchase_cost": c.purchase_cost,
+            "lifetime_cost": c.lifetime_cost,
+            "failed_checks": len(c.failures),
+            "driver": c.driver,
+        })
+    return pd.DataFrame(rows)
