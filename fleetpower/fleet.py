@@ -339,6 +339,8 @@ def _inventory(file: str, ref: str, base: Path, site: Site, cache: dict, start: 
         try:
             groups.append(_group(inv, "", g, path.parent, site, cache, start + k))
         except InputError as exc:
+            if exc.file != inv:  # a design file's own error already names its file and key
+                raise
             col = exc.where.split(".")[0].split("[")[0] or "design"
             raise InputError(inv, where + col, exc.message) from None
     return groups
@@ -568,6 +570,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
                 wc[phases.index(p), cols] += n * (g.peak_occupancy - g.occupancy.mean(axis=0))
         w_cases.append(wc)
     spectra = np.einsum("cpk,kh->cph", np.array(w_cases), i_k)  # (cases, n_p, n_h)
+    phasor_spectra = spectra  # the neutral is always built from these
     if spec.summation == "iec61000-3-6":
         mags = np.empty(spectra.shape)
         for c in range(spectra.shape[0]):
@@ -606,11 +609,11 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
             phase=p, p_w=float(p_cases[peak, k]), q1_var=float(q_cases[peak, k]),
             s_va=float(s_cp[peak, k]), i_rms_a=float(i_rms_cp[peak, k]), i1_a=i1,
             thd_i_pct=float(A.thd_pct(ih[: H_MAX + 1])) if i1 > 0 else 0.0,
-            k_factor=float(A.k_factor(ih)) if i_rms_cp[peak, k] > 0 else 0.0,
-            f_hl=float(A.harmonic_loss_factor(ih)) if i1 > 0 else 0.0,
+            k_factor=float(A.k_factor(ih[: H_MAX + 1])) if i_rms_cp[peak, k] > 0 else 0.0,
+            f_hl=float(A.harmonic_loss_factor(ih[: H_MAX + 1])) if i1 > 0 else 0.0,
             i_h_a=ih[: H_MAX + 1].copy(),
         ))
-    neutral = A.neutral_current({f.phase: spectra[peak, k] for k, f in enumerate(figs)},
+    neutral = A.neutral_current({f.phase: phasor_spectra[peak, k] for k, f in enumerate(figs)},
                                 site.system)
     totals = A.power_totals(
         {f.phase: f.p_w for f in figs}, {f.phase: f.q1_var for f in figs},
@@ -682,15 +685,23 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
 def write_atomic(path: str | Path, text: str) -> None:
     """Write ``text`` to ``path`` via a temporary file and a rename (never half-written)."""
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
     try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    except OSError as exc:
+        raise InputError(str(path), "", f"cannot write: {exc.strerror or exc}") from None
+    try:
+        umask = os.umask(0)
+        os.umask(umask)
         with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            os.fchmod(fh.fileno(), 0o666 & ~umask)  # mkstemp makes 0600; match open()
             fh.write(text)
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         if os.path.exists(tmp):
             os.unlink(tmp)
+        if isinstance(exc, OSError):
+            raise InputError(str(path), "", f"cannot write: {exc.strerror or exc}") from None
         raise
 
 

@@ -124,8 +124,13 @@ def test_without_state_every_state_in_file_order(cli):
         assert len(s["harmonics"]) == 50
     # several states: per-state figures are only in the list (README)
     assert "p_w" not in report
-    # more load draws more real power (energy conservation)
-    assert report["states"][0]["p_w"] > report["states"][1]["p_w"]
+    # a capacitive dropper is a current source and the zener shunts whatever the load
+    # does not take: input P barely moves with load, and the zener burns more at idle
+    # (common practice, no source)
+    active, idle = report["states"]
+    assert idle["p_w"] == pytest.approx(active["p_w"], rel=0.05)
+    assert idle["losses_w"]["zener"] > active["losses_w"]["zener"]
+    assert idle["delivered_w"] < active["delivered_w"]
 
 
 def test_states_in_file_order_not_alphabetical(tmp_path, design_file, cli):
