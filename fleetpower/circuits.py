@@ -49,7 +49,14 @@ import math
 import numpy as np
 from numba import njit
 
-from .devices import diode_current_a, softplus, zener_breakdown_current_a
+from .devices import (
+    diode_conductance_s,
+    diode_current_a,
+    sigmoid,
+    softplus,
+    zener_breakdown_conductance_s,
+    zener_breakdown_current_a,
+)
 
 # --- topology codes -----------------------------------------------------------------
 CAPACITIVE_DROPPER = 0
@@ -218,6 +225,71 @@ def residual(x, t, p, f):
             f[S_VO] = i_dc - _zener_current_a(vo, p) - i_load
         f[S_VA] = i_s - (i1 - i2)
     f[S_IS] = vs - (p[P_RSER] + p[P_RSRC]) * i_s - vc1 - va
+
+
+@njit(cache=True, inline="always")
+def _load_conductance_s(vo, p):
+    """d(load current)/d v_o [S] of :func:`_load_current_a`."""
+    if int(p[P_TOPO]) == RECTIFIER_SMPS:
+        uvlo = p[P_UVLO]
+        width = 0.02 * uvlo + 0.5
+        th = math.tanh((vo - uvlo) / width)
+        gate = 0.5 * (1.0 + th)
+        dgate = 0.5 * (1.0 - th * th) / width
+        den = vo * vo + 1.0
+        return p[P_PCONV] * (dgate * vo / den + gate * (1.0 - vo * vo) / (den * den))
+    u = (vo - p[P_VDO]) / p[P_VOUT]
+    s = REG_KNEE
+    dg = (sigmoid(u / s) - sigmoid((u - 1.0) / s)) / p[P_VOUT]
+    th = math.tanh(vo / REG_SOFT_V)
+    return p[P_ILOAD] * dg + p[P_IQ] * (1.0 - th * th) / REG_SOFT_V
+
+
+@njit(cache=True, inline="always")
+def _zener_conductance_s(v, p):
+    return zener_breakdown_conductance_s(v, p[P_Z_VK], p[P_Z_S], p[P_Z_RZ]) + diode_conductance_s(
+        -v, p[P_ZF_IS], p[P_ZF_NVT]
+    )
+
+
+@njit(cache=True)
+def jacobian(x, t, p, jac):
+    """Analytic Jacobian d f / d x of :func:`residual` into ``jac`` (4 x 4)."""
+    topo = int(p[P_TOPO])
+    rect = int(p[P_RECT])
+    vo = x[S_VO]
+    va = x[S_VA]
+    for i in range(N_STATES):
+        for j in range(N_STATES):
+            jac[i, j] = 0.0
+    if topo == CAPACITIVE_DROPPER:
+        jac[S_VC1, S_VC1] = -1.0 / p[P_RB]
+        jac[S_VC1, S_IS] = 1.0
+    else:
+        jac[S_VC1, S_VC1] = -1.0
+    g_load = _load_conductance_s(vo, p)
+    if rect == HALF_WAVE:
+        gd = diode_conductance_s(va - vo, p[P_D_IS], p[P_D_NVT])
+        jac[S_VO, S_VA] = gd
+        jac[S_VO, S_VO] = -gd - g_load
+        jac[S_VA, S_IS] = 1.0
+        jac[S_VA, S_VO] = gd
+        jac[S_VA, S_VA] = -gd
+        if topo != RECTIFIER_SMPS:
+            jac[S_VA, S_VA] -= _zener_conductance_s(va, p)
+    else:
+        g1 = 0.5 * diode_conductance_s(0.5 * (va - vo), p[P_D_IS], p[P_D_NVT])
+        g2 = 0.5 * diode_conductance_s(0.5 * (-va - vo), p[P_D_IS], p[P_D_NVT])
+        jac[S_VO, S_VA] = g1 - g2
+        jac[S_VO, S_VO] = -g1 - g2 - g_load
+        if topo != RECTIFIER_SMPS:
+            jac[S_VO, S_VO] -= _zener_conductance_s(vo, p)
+        jac[S_VA, S_IS] = 1.0
+        jac[S_VA, S_VA] = -(g1 + g2)
+        jac[S_VA, S_VO] = g1 - g2
+    jac[S_IS, S_IS] = -(p[P_RSER] + p[P_RSRC])
+    jac[S_IS, S_VC1] = -1.0
+    jac[S_IS, S_VA] = -1.0
 
 
 @njit(cache=True)

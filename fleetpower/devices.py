@@ -91,3 +91,26 @@ def softplus(u):
 def zener_breakdown_current_a(v_v, vk_v, s_v, rz_ohm):
     """Reverse (breakdown) current [A] of a zener reverse-biased by ``v_v`` [V] (> 0)."""
     return s_v / rz_ohm * softplus((v_v - vk_v) / s_v)
+
+
+@njit(cache=True, inline="always")
+def diode_conductance_s(v_v, is_a, nvt_v):
+    """d i_D / d v [S] of :func:`diode_current_a`."""
+    u = v_v / nvt_v
+    u_max = math.log(I_GUARD_A / is_a)
+    return is_a * math.exp(min(u, u_max)) / nvt_v
+
+
+@njit(cache=True, inline="always")
+def sigmoid(u):
+    """d softplus / du = 1 / (1 + e^-u) without overflow."""
+    if u >= 0.0:
+        return 1.0 / (1.0 + math.exp(-u))
+    e = math.exp(u)
+    return e / (1.0 + e)
+
+
+@njit(cache=True, inline="always")
+def zener_breakdown_conductance_s(v_v, vk_v, s_v, rz_ohm):
+    """d i_Z / d v [S] of :func:`zener_breakdown_current_a`."""
+    return sigmoid((v_v - vk_v) / s_v) / rz_ohm

@@ -50,7 +50,13 @@ from .circuits import (
     P_OMEGA,
     P_RSER,
     P_RSRC,
+    P_TOPO,
     P_VPK,
+    P_Z_VK,
+    RECTIFIER_SMPS,
+    S_VC1,
+    S_VO,
+    jacobian,
     mass_vector,
     probes,
     residual,
@@ -61,7 +67,7 @@ from .errors import SolverError
 DEFAULT_SAMPLES_PER_CYCLE = 2048
 #: relative tolerance of the periodicity condition |x(T) - x(0)| / scale
 PERIODIC_RTOL = 1e-9
-MAX_SHOOTING_ITERATIONS = 60
+MAX_SHOOTING_ITERATIONS = 80
 MAX_NEWTON_ITERATIONS = 40
 #: Newton step size, relative to the unknown's scale, below which a time step is accepted
 NEWTON_RTOL = 1e-7
@@ -121,7 +127,16 @@ def _solve_small(a, b, n):
 
 @njit(cache=True)
 def _jacobian(x, t, p, f0, jac, scale):
-    """Forward-difference Jacobian of the residual at ``x`` (``f0`` = residual there)."""
+    """Analytic Jacobian of the residual (``f0`` and ``scale`` kept for the FD variant)."""
+    jacobian(x, t, p, jac)
+
+
+@njit(cache=True)
+def jacobian_fd(x, t, p, f0, jac, scale):
+    """Forward-difference Jacobian of the residual at ``x`` (``f0`` = residual there).
+
+    Used by the tests as an independent check of :func:`fleetpower.circuits.jacobian`.
+    """
     n = N_STATES
     xp = x.copy()
     fp = np.empty(n)
@@ -324,6 +339,10 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
     b = np.empty((nd, 1))
     xt = np.empty(n)
     cycles = 0
+    if int(p[P_TOPO]) == RECTIFIER_SMPS:
+        vo_max = 1.05 * vpk
+    else:
+        vo_max = p[P_Z_VK] + 2.0
 
     status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
     cycles += 1
@@ -360,6 +379,10 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
                 xt[i] = x[i]
             for r in range(nd):
                 xt[idx[r]] += lam * b[r, 0]
+            # project onto physically reachable states (the reservoir cannot charge above
+            # its clamp, nor below zero; the series capacitor not beyond the mains peak)
+            xt[S_VO] = min(max(xt[S_VO], 0.0), vo_max)
+            xt[S_VC1] = min(max(xt[S_VC1], -1.2 * vpk), 1.2 * vpk)
             if _consistent(xt, 0.0, p, m, scale):
                 status = _one_cycle(p, xt, n_steps, m, scale, xs, sens)
                 cycles += 1

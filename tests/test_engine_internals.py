@@ -1,0 +1,78 @@
+"""Internal consistency of the engine: analytic Jacobian, device fits, periodicity.
+
+Outside references: the forward-difference derivative (numerical analysis, e.g. Nocedal &
+Wright, Numerical Optimization, ch. 8) for the Jacobian; the datasheet meaning of the
+device parameters (Shockley diode equation; zener voltage at its test current).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from fleetpower import circuits as c
+from fleetpower import devices as dv
+from fleetpower._resources import examples_dir
+from fleetpower.inputs import load_design
+from fleetpower.solver import jacobian_fd, solve_periodic
+from fleetpower.supply import circuit_rows, simulate
+
+EXAMPLES = sorted(p.name for p in examples_dir().glob("*.toml") if "fleet" not in p.name
+                  and p.read_text().find("topology") >= 0)
+
+
+def test_diode_drops_its_rated_forward_voltage():
+    # Shockley: i = Is (exp(v/nVt) - 1); Is fitted so that 0.7 V gives 20 mA
+    # ("about 0.7 V at tens of mA", common practice, no source).
+    is_a = dv.diode_saturation_current_a(0.7, 0.020)
+    nvt = dv.N_RECTIFIER * dv.VT_V
+    assert dv.diode_current_a(0.7, is_a, nvt) == pytest.approx(0.020, rel=1e-12)
+    # dynamic resistance n Vt / I at 20 mA (Shockley): 46.4 mV / 20 mA = 2.3 ohm
+    assert 1.0 / dv.diode_conductance_s(0.7, is_a, nvt) == pytest.approx(nvt / 0.020, rel=1e-6)
+
+
+def test_zener_breaks_down_at_its_test_current():
+    # datasheet meaning: V_Z is the breakdown voltage at I_ZT; r_Z the slope there
+    vk, s = dv.zener_knee(12.0, 0.020, 7.0)
+    assert dv.zener_breakdown_current_a(12.0, vk, s, 7.0) == pytest.approx(0.020, rel=1e-12)
+    slope = dv.zener_breakdown_conductance_s(12.0, vk, s, 7.0)
+    assert 1.0 / slope == pytest.approx(7.0, rel=0.01)
+    # far below the knee the zener blocks: less than 1 uA at 10 V
+    assert dv.zener_breakdown_current_a(10.0, vk, s, 7.0) < 1e-6
+
+
+@pytest.mark.parametrize("name", EXAMPLES)
+@settings(max_examples=25, deadline=None)
+@given(phase=st.floats(0.0, 1.0), dv_=st.floats(-3.0, 3.0), di=st.floats(-0.05, 0.05))
+def test_analytic_jacobian_matches_finite_differences(name, phase, dv_, di):
+    design = load_design(examples_dir() / name)
+    p, x0 = circuit_rows(design, next(iter(design.states)))
+    x = x0 + np.array([dv_, dv_ * 0.5, dv_ + 1.0, di])
+    t = phase * 2 * math.pi / p[c.P_OMEGA]
+    f0 = np.empty(4)
+    c.residual(x, t, p, f0)
+    ja, jf = np.empty((4, 4)), np.empty((4, 4))
+    c.jacobian(x, t, p, ja)
+    jacobian_fd(x, t, p, f0, jf, np.array([p[c.P_VPK]] * 3 + [1.0]))
+    np.testing.assert_allclose(ja, jf, rtol=2e-4, atol=1e-6 * np.abs(jf).max())
+
+
+def test_steady_state_is_periodic_and_reached_from_a_poor_guess():
+    # A fixed point of the one-cycle map does not depend on the initial guess.
+    design = load_design(examples_dir() / "nightlight-dropper.toml")
+    p, x0 = circuit_rows(design, "active")
+    a = solve_periodic(p[None], x0[None])
+    b = solve_periodic(p[None], np.array([[50.0, 0.0, 0.0, 0.0]]))
+    np.testing.assert_allclose(a.probes[0, :, 0], b.probes[0, :, 0], atol=1e-7)
+    assert a.periodic_residual[0] < 1e-9
+
+
+def test_batch_equals_one_at_a_time():
+    design = load_design(examples_dir() / "lobby-bridge-dropper.toml")
+    one = [simulate(design, [s])[0].pq.p_w for s in design.states]
+    both = [r.pq.p_w for r in simulate(design)]
+    assert both == pytest.approx(one, rel=1e-12)
