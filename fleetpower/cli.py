@@ -29,6 +29,10 @@ def cmd_unit(args) -> int:
     from .supply import analyse_unit
 
     design = load_design(args.design)
+    if args.limits:  # read the user's limit file before the (longer) solve
+        from .limits import load_limit_set
+
+        load_limit_set(args.limits)
     states = [args.state] if args.state else None
     if args.state and args.state not in design.states:
         from .errors import suggest

@@ -427,7 +427,8 @@ def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
     sel = shipped[shipped["set"] == text]
     if sel.empty:
         ids = sorted(set(shipped["set"]))
-        raise InputError("<input>", "limit set", f"unknown limit set '{text}'{suggest(text, ids)}")
+        raise InputError(text, "limit set", f"unknown limit set '{text}' and no such file"
+                         f"{suggest(text, ids)}; 'fleetpower limits' lists the sets")
     return sel.reset_index(drop=True)
 
 

@@ -213,8 +213,11 @@ def _state_results(design, cases, sol) -> list[StateResult]:
         v = pr[:, idx["v_source_v"]]
         i = pr[:, idx["i_line_a"]]
         pq = power_quality(v, i)
+        labels = dict(LOSS_LABELS)
+        if design.topology == "resistive-dropper":
+            labels["p_series_resistor_w"] = "dropper resistor"
         losses = {
-            LOSS_LABELS[k]: float(mean[idx[k]])
+            labels[k]: float(mean[idx[k]])
             for k in c.LOSS_PROBES
             if abs(mean[idx[k]]) > 0.0 or k in ("p_series_resistor_w", "p_rectifier_w")
         }

@@ -39,6 +39,23 @@ def smps_active() -> dict:
     return json_report(SMPS, "--state", "active")
 
 
+@pytest.fixture(scope="module")
+def lobby_measuring() -> dict:
+    return json_report(LOBBY, "--state", "measuring")
+
+
+REPORTS = {  # (file, state) -> module fixture holding that report
+    (NIGHTLIGHT, "active"): "night_active",
+    (SMPS, "active"): "smps_active",
+    (LOBBY, "measuring"): "lobby_measuring",
+}
+
+
+def report_for(request, path, state) -> dict:
+    name = REPORTS.get((path, state))
+    return request.getfixturevalue(name) if name else json_report(path, "--state", state)
+
+
 def one_line_error(err: str, prefix: str) -> str:
     assert "Traceback" not in err
     assert len(err.splitlines()) == 1 and err.endswith("\n"), err
@@ -133,8 +150,12 @@ def test_without_state_every_state_in_file_order(cli):
     assert idle["delivered_w"] < active["delivered_w"]
 
 
-def test_states_in_file_order_not_alphabetical(tmp_path, design_file, cli):
-    path = design_file(replace_states={"zzz": "10 mA", "aaa": "2 mA", "mmm": "0.05 W"})
+def test_states_in_file_order_not_alphabetical(design_file, cli):
+    path = design_file(
+        "heater-resistive",
+        rated_state="zzz",
+        replace_states={"zzz": "4 mA", "aaa": "0.5 mA", "mmm": "0.01 W"},
+    )
     rc, out, err = cli("unit", path, "--json")
     assert rc == 0, err
     assert [s["state"] for s in json.loads(out)["states"]] == ["zzz", "aaa", "mmm"]
@@ -215,8 +236,8 @@ def _row(text: str, label: str) -> str:
 
 
 @pytest.mark.parametrize("path, state", [(NIGHTLIGHT, "active"), (SMPS, "active")])
-def test_terminal_shows_json_figures(cli, path, state):
-    report = json_report(path, "--state", state)
+def test_terminal_shows_json_figures(request, cli, path, state):
+    report = report_for(request, path, state)
     rc, text, err = cli("unit", path, "--state", state, "--width", "100")
     assert rc == 0 and err == ""
     assert max(len(ln) for ln in text.splitlines()) <= 100
@@ -245,8 +266,8 @@ def test_fmt_rounds_to_significant_figures():
     "path, state, v, f, c",
     [(NIGHTLIGHT, "active", 120.0, 60.0, 3.3e-6), (LOBBY, "measuring", 230.0, 50.0, 680e-9)],
 )
-def test_dropper_q1_is_capacitive(path, state, v, f, c):
-    report = json_report(path, "--state", state)
+def test_dropper_q1_is_capacitive(request, path, state, v, f, c):
+    report = report_for(request, path, state)
     # IEEE 1459-2010 sign convention: capacitive (leading) Q is negative
     assert report["q1_var"] < 0
     # the series capacitor dominates: Q ~ -V^2 * 2 pi f C (capacitor reactive power,
@@ -258,8 +279,8 @@ def test_dropper_q1_is_capacitive(path, state, v, f, c):
     "path, state",
     [(NIGHTLIGHT, "active"), (LOBBY, "measuring"), (SMPS, "idle"), (HEATER, "relay_on")],
 )
-def test_energy_balance_closes(path, state):
-    r = json_report(path, "--state", state)
+def test_energy_balance_closes(request, path, state):
+    r = report_for(request, path, state)
     b = r["balance"]
     assert b["p_in_w"] == pytest.approx(r["p_w"], rel=1e-12)
     accounted = r["delivered_w"] + sum(r["losses_w"].values()) + b["source_resistance_w"]
@@ -271,12 +292,10 @@ def test_energy_balance_closes(path, state):
     assert all(v >= 0 for v in r["losses_w"].values())
 
 
-def test_lobby_source_resistance_loss_is_i_squared_r():
-    r = json_report(LOBBY, "--state", "measuring")
+def test_lobby_source_resistance_loss_is_i_squared_r(lobby_measuring):
+    r = lobby_measuring
     # Joule loss in the 0.4 ohm mains source resistance: P = I_rms^2 R (textbook)
-    assert r["balance"]["source_resistance_w"] == pytest.approx(
-        r["i_rms_a"] ** 2 * 0.4, rel=1e-3
-    )
+    assert r["balance"]["source_resistance_w"] == pytest.approx(r["i_rms_a"] ** 2 * 0.4, rel=1e-3)
 
 
 # ----------------------------------------------------------------------------------------
@@ -394,7 +413,8 @@ def test_user_limit_file_shown_on_terminal(cli, tmp_path):
 def test_user_limit_file_errors_one_line(cli, tmp_path, content, where, phrase):
     path = tmp_path / "company.csv"
     path.write_text(content, encoding="utf-8")
-    rc, out, err = cli("unit", NIGHTLIGHT, "--state", "idle", "--limits", path)
+    # the heater example solves fastest; the file is only read once the solve is done
+    rc, out, err = cli("unit", HEATER, "--state", "relay_off", "--limits", path)
     assert rc == 2 and out == ""
     msg = one_line_error(err, f"fleetpower: {path}: {where}: ")
     assert phrase in msg
@@ -402,6 +422,6 @@ def test_user_limit_file_errors_one_line(cli, tmp_path, content, where, phrase):
 
 def test_user_limit_file_missing(cli, tmp_path):
     path = tmp_path / "absent.csv"
-    rc, _, err = cli("unit", NIGHTLIGHT, "--state", "idle", "--limits", path)
+    rc, _, err = cli("unit", HEATER, "--state", "relay_off", "--limits", path)
     assert rc == 2
     assert one_line_error(err, f"fleetpower: {path}: ") == "limit file not found"

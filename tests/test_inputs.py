@@ -189,9 +189,7 @@ def test_bad_efficiency_entry_value(cli, design_file, table, index):
     assert "fraction_of_rated" in msg
 
 
-@pytest.mark.parametrize(
-    "table", [[[0.1, 0.55, 3.0]], [[0.1, "80 %"]], [], [0.1, 0.8]], ids=str
-)
+@pytest.mark.parametrize("table", [[[0.1, 0.55, 3.0]], [[0.1, "80 %"]], [], [0.1, 0.8]], ids=str)
 def test_bad_efficiency_entry_shape(cli, design_file, table):
     path = design_file("corridor-smps", output={"efficiency": table})
     err = unit_fails(cli, path)
