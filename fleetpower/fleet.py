@@ -468,6 +468,7 @@ class FleetResult:
     summation_label: str
     units: int
     peak_hour: int
+    peak_coincident: bool
     phases: list[PhaseFigures]
     neutral_i_rms_a: float
     neutral_i1_a: float
@@ -564,18 +565,22 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     # the peak case: the hourly profile, or a coincident case where diversity is given
     w_cases = [w[t] for t in range(HOURS)]
     if w_peak_extra:
-        wc = w.mean(axis=0).copy()
-        for g, split, cols in w_peak_extra:
-            for p, n in split.items():
-                wc[phases.index(p), cols] += n * (g.peak_occupancy - g.occupancy.mean(axis=0))
-        w_cases.append(wc)
+        # coincident cases: every hour again, with the groups that give a diversity (and
+        # hours per day) at their coincident occupancy instead of their daily mean
+        for t in range(HOURS):
+            wc = w[t].copy()
+            for g, split, cols in w_peak_extra:
+                for p, n in split.items():
+                    wc[phases.index(p), cols] += n * (g.peak_occupancy - g.occupancy[t])
+            w_cases.append(wc)
     spectra = np.einsum("cpk,kh->cph", np.array(w_cases), i_k)  # (cases, n_p, n_h)
     phasor_spectra = spectra  # the neutral is always built from these
     if spec.summation == "iec61000-3-6":
+        w_all_ = np.array(w_cases)
         mags = np.empty(spectra.shape)
         for c in range(spectra.shape[0]):
             for p in range(n_p):
-                mags[c, p] = A.sum_iec61000_3_6(i_k, np.array(w_cases)[c, p]).i_h_a
+                mags[c, p] = A.sum_iec61000_3_6(i_k, w_all_[c, p]).i_h_a
         # keep the phasor angles, take the law's magnitudes
         spectra = mags * np.exp(1j * np.angle(spectra))
         label = A.sum_iec61000_3_6(i_k[:1], [1]).method
@@ -584,11 +589,13 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     i_rms_cp = np.sqrt(np.sum(np.abs(spectra[..., 1:]) ** 2, axis=-1)
                        + np.abs(spectra[..., 0]) ** 2)
     s_cp = site.v_ln_v * i_rms_cp
-    p_cases = np.vstack([p_tp] + ([np.array(w_cases)[-1] @ p_k] if w_peak_extra else []))
-    q_cases = np.vstack([q_tp] + ([np.array(w_cases)[-1] @ q_k] if w_peak_extra else []))
+    w_all = np.array(w_cases)
+    p_cases = w_all @ p_k  # (cases, n_p)
+    q_cases = w_all @ q_k
     metric = s_cp.sum(axis=1) if tariff.demand_basis == "kVA" else p_cases.sum(axis=1)
     peak = int(np.argmax(metric))
-    peak_label = peak if peak < HOURS else -1  # -1 = coincident (diversity) case
+    peak_label = peak % HOURS
+    coincident = peak >= HOURS
 
     hourly = pd.DataFrame({
         "hour": np.arange(HOURS),
@@ -670,7 +677,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
                             f"{site.v_ln_v:.0f} V {site.f_hz:.0f} Hz")
     return FleetResult(
         spec=spec, summation_label=label, units=sum(g.count for g in spec.groups),
-        peak_hour=peak_label, phases=figs, neutral_i_rms_a=neutral.i_rms_a,
+        peak_hour=peak_label, peak_coincident=coincident, phases=figs, neutral_i_rms_a=neutral.i_rms_a,
         neutral_i1_a=float(abs(neutral.i_h_a[1])), neutral_i_h_a=neutral.i_h_a[: H_MAX + 1],
         p_kw=totals.p_w / 1e3, q1_kvar=totals.q1_var / 1e3, s_kva=totals.s_arith_va / 1e3,
         s_e_kva=None if totals.s_e_va is None else totals.s_e_va / 1e3,

@@ -329,8 +329,9 @@ def fleet_to_dict(r) -> dict:
         "units": r.units,
         "summation": r.summation_label,
         "peak_hour": r.peak_hour,
-        "peak_case": ("coincident case from diversity" if r.peak_hour < 0
-                      else f"hour {r.peak_hour:02d}:00-{r.peak_hour + 1:02d}:00"),
+        "peak_coincident": r.peak_coincident,
+        "peak_case": (f"hour {r.peak_hour:02d}:00-{r.peak_hour + 1:02d}:00"
+                      + (", coincident (diversity) case" if r.peak_coincident else "")),
         "p_kw": r.p_kw,
         "q1_kvar": r.q1_kvar,
         "q1_sense": "leading (capacitive)" if r.q1_kvar < 0 else "lagging (inductive)",

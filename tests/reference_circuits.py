@@ -221,16 +221,23 @@ class Model:
             return float(y[0]), float(y[1])
         return 0.0, float(y[0])
 
-    def kcl(self, va: float, vs: float, vc1: float, vo: float) -> float:
-        """Current into node a from the series branch less the current leaving it [A]."""
+    def kcl_slope(self, va: float, vs: float, vc1: float, vo: float) -> tuple[float, float]:
+        """KCL residual at node a [A] (current in from the series branch less the current
+        leaving into rectifier and zener) and its derivative d/dva [A/V] (< -1/R)."""
         ckt = self.ckt
         self.root_evals += 1
         i_s = (vs - vc1 - va) / ckt.r_total
-        i_rect, _, _, _ = rectifier_currents(ckt, va, vo)
+        i_rect, d_rect, _, _ = rectifier_currents(ckt, va, vo)
         out = i_s - i_rect
+        slope = -1.0 / ckt.r_total - d_rect
         if ckt.topology != "rectifier-smps" and not ckt.bridge:
-            out -= zener_current(ckt, va)[0]
-        return out
+            iz, dz = zener_current(ckt, va)
+            out -= iz
+            slope -= dz
+        return out, slope
+
+    def kcl(self, va: float, vs: float, vc1: float, vo: float) -> float:
+        return self.kcl_slope(va, vs, vc1, vo)[0]
 
     def node_voltage(self, t: float, vc1: float, vo: float) -> float:
         """Solve KCL at node a for v_a [V] (brentq on a guaranteed bracket)."""
@@ -255,7 +262,14 @@ class Model:
         else:
             raise RuntimeError("no bracket for the node voltage")
         lo, hi = (x0, x1) if g0 > 0.0 else (x1, x0)
-        va = brentq(self.kcl, lo, hi, args=(vs, vc1, vo), xtol=1e-13, rtol=1e-15, maxiter=200)
+        va = brentq(self.kcl, lo, hi, args=(vs, vc1, vo), xtol=1e-15, rtol=1e-15, maxiter=200)
+        # one Newton step polishes brentq's answer to the rounding level of the residual,
+        # so the right-hand side is a smooth function of the state (Radau's Newton
+        # iteration at rtol 1e-9 stalls on a noisy one)
+        g, dg = self.kcl_slope(va, vs, vc1, vo)
+        step = -g / dg
+        if lo <= va + step <= hi:
+            va += step
         self._va_guess = va
         return va
 
