@@ -48,7 +48,12 @@ def _toml_value(v) -> str:
         return json.dumps(v)  # JSON string escapes are valid TOML basic-string escapes
     if isinstance(v, (list, tuple)):
         return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    if isinstance(v, dict):  # inline table
+        return "{ " + ", ".join(f"{k} = {_toml_value(x)}" for k, x in v.items()) + " }"
     raise TypeError(f"TOML writer: cannot write {type(v).__name__}")
+
+
+toml_value = _toml_value  # shared by the fleet tests
 
 
 def _toml_table(data: dict, prefix: str, lines: list[str]) -> None:

@@ -8,12 +8,11 @@ simulated once per process (the catalogue cache is keyed by file content and mai
 from __future__ import annotations
 
 import dataclasses
-import json
 import math
 
 import numpy as np
 import pytest
-from conftest import example_path
+from conftest import example_path, toml_value
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -34,18 +33,7 @@ ACTIVE_DAY = ["active"] * 24
 # ----------------------------------------------------------------------------------------
 # writing fleet files
 # ----------------------------------------------------------------------------------------
-def _value(v) -> str:
-    if isinstance(v, bool):
-        return "true" if v else "false"
-    if isinstance(v, (int, float)):
-        return repr(v)
-    if isinstance(v, str):
-        return json.dumps(v)
-    if isinstance(v, (list, tuple)):
-        return "[" + ", ".join(_value(x) for x in v) + "]"
-    if isinstance(v, dict):
-        return "{ " + ", ".join(f"{k} = {_value(x)}" for k, x in v.items()) + " }"
-    raise TypeError(type(v).__name__)
+_value = toml_value  # the TOML writer of conftest.py
 
 
 SITE = {"system": "three-phase-wye", "voltage": "120 V", "frequency": "60 Hz"}

@@ -13,25 +13,14 @@ import stat
 
 import pandas as pd
 import pytest
-from conftest import example_path
+from conftest import example_path, toml_value
 
 from fleetpower.cli import EXIT_INPUT
 
 PROFILE = ["idle"] * 8 + ["active"] * 10 + ["idle"] * 6
 
 
-def _value(v) -> str:
-    if isinstance(v, bool):
-        return "true" if v else "false"
-    if isinstance(v, (int, float)):
-        return repr(v)
-    if isinstance(v, str):
-        return json.dumps(v)
-    if isinstance(v, (list, tuple)):
-        return "[" + ", ".join(_value(x) for x in v) + "]"
-    if isinstance(v, dict):
-        return "{ " + ", ".join(f"{k} = {_value(x)}" for k, x in v.items()) + " }"
-    raise TypeError(type(v).__name__)
+_value = toml_value  # the TOML writer of conftest.py
 
 
 def base_fleet() -> dict:
