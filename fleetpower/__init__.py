@@ -1,1 +1,36 @@
-"""fleetpower."""
+"""fleetpower: what a fleet of small always-on mains supplies really draws.
+
+The library returns plain dataclasses and pandas DataFrames::
+
+    from fleetpower import load_design, analyse_unit, load_fleet, evaluate_fleet, compare
+
+Names are imported lazily so that ``fleetpower --help`` stays quick.
+"""
+
+from __future__ import annotations
+
+import importlib
+
+__version__ = "0.1.0"
+
+_EXPORTS = {
+    "load_design": "fleetpower.inputs",
+    "Design": "fleetpower.inputs",
+    "analyse_unit": "fleetpower.supply",
+    "simulate": "fleetpower.supply",
+    "power_quality": "fleetpower.analysis",
+    "load_fleet": "fleetpower.fleet",
+    "evaluate_fleet": "fleetpower.fleet",
+    "compare": "fleetpower.compare",
+    "unit_compliance": "fleetpower.compliance",
+    "InputError": "fleetpower.errors",
+    "SolverError": "fleetpower.errors",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str):
+    if name in _EXPORTS:
+        return getattr(importlib.import_module(_EXPORTS[name]), name)
+    raise AttributeError(f"module 'fleetpower' has no attribute {name!r}")

@@ -89,6 +89,7 @@ def state_to_dict(r: StateResult) -> dict:
             "v_dc_min_v": r.v_dc_min_v,
             "ripple_v_pp": r.ripple_v_pp,
             "i_dc_a": r.i_dc_a,
+            "i_load_set_a": r.load_a,
             "in_regulation": r.in_regulation,
         },
         "shooting_iterations": r.iterations,

@@ -189,7 +189,8 @@ class StateResult:
     v_dc_v: float
     v_dc_min_v: float
     ripple_v_pp: float
-    i_dc_a: float
+    i_dc_a: float  # mean current the load actually receives [A] (less than asked when the
+    # regulator drops out)
     v_out_min_v: float
     i_zener_reverse_a: float
     p_zener_w: float
@@ -253,7 +254,8 @@ def _state_results(design, cases, sol) -> list[StateResult]:
                 v_dc_v=float(vo.mean()),
                 v_dc_min_v=float(vo.min()),
                 ripple_v_pp=float(vo.max() - vo.min()),
-                i_dc_a=load_a,
+                i_dc_a=(load_a * float(np.mean(v_out)) / design.output.voltage
+                        if design.is_dropper else load_a),
                 v_out_min_v=float(v_out.min()),
                 i_zener_reverse_a=float(np.mean(np.clip(iz, 0.0, None))),
                 p_zener_w=float(mean[idx["p_zener_w"]]),
