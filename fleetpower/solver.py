@@ -44,14 +44,17 @@ import numpy as np
 from numba import njit, prange
 
 from .circuits import (
+    CAPACITIVE_DROPPER,
     N_PARAMS,
     N_PROBES,
     N_STATES,
+    P_C1,
     P_OMEGA,
     P_RSER,
     P_RSRC,
     P_TOPO,
     P_VPK,
+    P_Z_RZ,
     P_Z_VK,
     RECTIFIER_SMPS,
     S_VC1,
@@ -69,6 +72,9 @@ DEFAULT_SAMPLES_PER_CYCLE = 2048
 PERIODIC_RTOL = 1e-9
 MAX_SHOOTING_ITERATIONS = 80
 MAX_NEWTON_ITERATIONS = 40
+#: full Newton steps allowed to raise the periodicity residual in a row (watchdog)
+WATCHDOG_STEPS = 3
+WATCHDOG_OFF = -(10**6)  # after a watchdog restart: monotone search until progress
 #: Newton step size, relative to the unknown's scale, below which a time step is accepted
 NEWTON_RTOL = 1e-7
 
@@ -338,11 +344,17 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
     a = np.empty((nd, nd))
     b = np.empty((nd, 1))
     xt = np.empty(n)
+    x_best = x.copy()
+    norm_best = np.inf
+    watch = 0
     cycles = 0
     if int(p[P_TOPO]) == RECTIFIER_SMPS:
         vo_max = 1.05 * vpk
-    else:
-        vo_max = p[P_Z_VK] + 2.0
+    else:  # the zener's voltage at the largest current the series branch can pass
+        i_pk = vpk / r_tot
+        if int(p[P_TOPO]) == CAPACITIVE_DROPPER:
+            i_pk = min(i_pk, vpk * p[P_OMEGA] * p[P_C1])
+        vo_max = min(p[P_Z_VK] + 2.0 + p[P_Z_RZ] * i_pk, 1.05 * vpk)
 
     status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
     cycles += 1
@@ -372,9 +384,25 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
             cap = 0.5 * scale[idx[r]]
             if step * lam > cap:
                 lam = cap / step
-        # backtracking line search on the periodicity residual (damped Newton)
+        # backtracking line search on the periodicity residual (damped Newton) with a
+        # watchdog: a full step may raise the residual up to WATCHDOG_STEPS times in a
+        # row (Newton often passes through a worse point on its way across a diode's
+        # knee); if that does not end below the residual it started from, the search
+        # returns there and backtracks (Chamberlain et al., Math. Prog. Study 16, 1982).
+        if watch >= WATCHDOG_STEPS:
+            for i in range(n):
+                x[i] = x_best[i]
+            status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+            cycles += 1
+            if status != STATUS_OK:
+                info[0] = status
+                info[1] = cycles
+                return
+            norm = norm_best
+            watch = WATCHDOG_OFF
+            continue
         accepted = False
-        for _ in range(8):
+        for ls in range(8):
             for i in range(n):
                 xt[i] = x[i]
             for r in range(nd):
@@ -388,7 +416,17 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
                 cycles += 1
                 if status == STATUS_OK:
                     trial = _periodic_norm(xt, xs[n_steps], idx, nd, scale)
-                    if trial < (1.0 - 1e-4 * lam) * norm:
+                    decrease = trial < (1.0 - 1e-4 * lam) * norm
+                    relaxed = ls == 0 and 0 <= watch < WATCHDOG_STEPS and trial < 50.0 * norm
+                    if decrease or relaxed:
+                        if not decrease and watch == 0:
+                            for i in range(n):
+                                x_best[i] = x[i]
+                            norm_best = norm
+                        if decrease and (watch == 0 or trial < norm_best):
+                            watch = 0
+                        elif not decrease:
+                            watch += 1
                         for i in range(n):
                             x[i] = xt[i]
                         norm = trial

@@ -121,7 +121,7 @@ def test_markdown_report_has_every_design_and_the_recommendation(ab):
 
 
 def test_plots_are_valid_png_and_svg_with_expected_axes(ab, tmp_path):
-    pytest.importorskip("matplotlib")
+    # matplotlib comes with the test extra (pyproject: test = [..., "matplotlib"])
     from fleetpower.plots import comparison_figures
 
     paths = comparison_figures(ab, tmp_path)

@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from tolerances import BALANCE_PCT
 
 from fleetpower import circuits as c
 from fleetpower import devices as dv
@@ -76,3 +77,64 @@ def test_batch_equals_one_at_a_time():
     one = [simulate(design, [s])[0].pq.p_w for s in design.states]
     both = [r.pq.p_w for r in simulate(design)]
     assert both == pytest.approx(one, rel=1e-12)
+
+
+def _random_design(rng, k):
+    """A plausible random design (seeded): the parameter ranges practitioners use."""
+    topo = str(rng.choice(["capacitive-dropper", "resistive-dropper", "rectifier-smps"]))
+    v, f = (120, 60) if rng.random() < 0.5 else (230, 50)
+    rect = str(rng.choice(["half-wave", "bridge"]))
+    vz = float(rng.uniform(5.6, 24))
+    lin = dict(voltage=f"{rng.uniform(2, vz - 2.5):.2f} V",
+               quiescent_current=f"{rng.uniform(0, 8):.2f} mA",
+               dropout=f"{rng.uniform(0.2, 2):.2f} V")
+    if topo == "capacitive-dropper":
+        parts = dict(series_capacitance=f"{rng.uniform(0.1, 5):.3f} uF",
+                     series_resistance=f"{rng.uniform(5, 200):.1f} ohm",
+                     bleeder_resistance=f"{rng.uniform(0.1, 2):.2f} Mohm",
+                     zener_voltage=f"{vz:.2f} V", rectifier=rect,
+                     reservoir_capacitance=f"{rng.uniform(10, 2200):.0f} uF")
+        out, load = lin, f"{rng.uniform(0, 120):.2f} mA"
+    elif topo == "resistive-dropper":
+        parts = dict(dropper_resistance=f"{rng.uniform(2, 50):.2f} kohm",
+                     zener_voltage=f"{vz:.2f} V", rectifier=rect,
+                     reservoir_capacitance=f"{rng.uniform(10, 2200):.0f} uF")
+        out, load = lin, f"{rng.uniform(0, 30):.2f} mA"
+    else:
+        pr = float(rng.uniform(1, 60))
+        parts = dict(x_capacitance=f"{rng.uniform(10, 470):.0f} nF",
+                     bleeder_resistance=f"{rng.uniform(0.3, 3):.2f} Mohm",
+                     series_resistance=f"{rng.uniform(1, 47):.1f} ohm",
+                     bulk_capacitance=f"{rng.uniform(2, 100):.1f} uF", rectifier=rect)
+        out = dict(voltage="12 V", rated_power=f"{pr:.2f} W",
+                   no_load_input_power=f"{rng.uniform(0.02, 0.3):.3f} W",
+                   efficiency=[[0.1, 0.6], [0.5, 0.8], [1.0, 0.85]],
+                   undervoltage_lockout=f"{rng.uniform(0.2, 0.7) * v * 1.414:.0f} V")
+        load = f"{rng.uniform(0, 1.3) * pr:.3f} W"
+    return dict(name=f"random {k}", topology=topo,
+                mains=dict(voltage=f"{v} V", frequency=f"{f} Hz"),
+                parts=parts, output=out, states=dict(s=load))
+
+
+def test_random_designs_converge_and_conserve_energy():
+    # Invariant (conservation of energy over a period, any circuit): mean input power =
+    # delivered + all losses + source resistance, storage averaging to zero. Checked on
+    # 120 seeded random designs, overloaded ones included, solved as one batch.
+    from fleetpower.inputs import design_from_dict
+
+    rng = np.random.default_rng(20261202)
+    rows, x0s = [], []
+    for k in range(120):
+        d = design_from_dict(_random_design(rng, k))
+        p, x0 = circuit_rows(d, "s")
+        rows.append(p)
+        x0s.append(x0)
+    sol = solve_periodic(np.array(rows), np.array(x0s), raise_on_failure=False)
+    assert sol.converged.all()
+    idx = {n: k for k, n in enumerate(c.PROBES)}
+    pr = sol.probes.mean(axis=1)
+    p_in = (sol.probes[:, :, idx["i_line_a"]] * sol.probes[:, :, idx["v_source_v"]]).mean(axis=1)
+    out = sum(pr[:, idx[k]] for k in c.LOSS_PROBES) + pr[:, idx["p_delivered_w"]] + \
+        pr[:, idx["p_source_resistance_w"]]
+    np.testing.assert_allclose(out, p_in, rtol=BALANCE_PCT / 100)
+    assert np.all(np.isfinite(sol.probes))
