@@ -44,7 +44,6 @@ Voltage = Annotated[float, _q("voltage"), Positive]
 Current = Annotated[float, _q("current"), Positive]
 CurrentNN = Annotated[float, _q("current"), NonNegative]
 Power = Annotated[float, _q("power"), Positive]
-PowerNN = Annotated[float, _q("power"), NonNegative]
 Capacitance = Annotated[float, _q("capacitance"), Positive]
 Resistance = Annotated[float, _q("resistance"), Positive]
 ResistanceNN = Annotated[float, _q("resistance"), NonNegative]
@@ -168,10 +167,6 @@ class Design(BaseModel):
         if self.is_dropper:
             return False
         return True if self.isolated is None else self.isolated
-
-    @property
-    def worst_state(self) -> str:
-        return min(self.states, key=lambda s: self.load_current_a(s))
 
     def load_current_a(self, state: str) -> float:
         """Output current [A] of ``state`` (a power is divided by the output voltage)."""
