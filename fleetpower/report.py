@@ -223,7 +223,7 @@ def _loss_table(states: list[dict]) -> Table:
               style="bold")
     t.add_row("input P", *[fmt(s["balance"]["p_in_w"], 4, "W") for s in states], style="bold")
     t.add_row("balance residual",
-              *[f"{s['balance']['residual_pct']:+.4f} %" for s in states], style="dim")
+              *[f"{s['balance']['residual_pct']:+.1e} %" for s in states], style="dim")
     return t
 
 
