@@ -1,28 +1,27 @@
-"""Locate the bundled data tables and examples, installed or in a source checkout."""
+"""Locate the bundled data tables and examples, installed or in a source checkout.
+
+Installed, ``data/`` and ``examples/`` sit inside the package (pyproject maps them there);
+in a source checkout they sit at the top of the repository.
+"""
 
 from __future__ import annotations
 
-from importlib import resources
 from pathlib import Path
 
-_REPO = Path(__file__).resolve().parent.parent
+_PACKAGE = Path(__file__).resolve().parent
+_REPO = _PACKAGE.parent
 
 
-def _locate(package: str, fallback: str) -> Path:
-    try:
-        path = Path(str(resources.files(package)))
-        if path.is_dir():
-            return path
-    except (ModuleNotFoundError, TypeError):
-        pass
-    return _REPO / fallback
+def _locate(name: str) -> Path:
+    installed = _PACKAGE / name
+    return installed if installed.is_dir() else _REPO / name
 
 
 def data_dir() -> Path:
     """Folder holding the standards tables (``data/`` in the repository)."""
-    return _locate("fleetpower.data", "data")
+    return _locate("data")
 
 
 def examples_dir() -> Path:
     """Folder holding the bundled demo scenario (``examples/`` in the repository)."""
-    return _locate("fleetpower.examples", "examples")
+    return _locate("examples")

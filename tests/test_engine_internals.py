@@ -138,3 +138,11 @@ def test_random_designs_converge_and_conserve_energy():
         pr[:, idx["p_source_resistance_w"]]
     np.testing.assert_allclose(out, p_in, rtol=BALANCE_PCT / 100)
     assert np.all(np.isfinite(sol.probes))
+
+
+def test_bundled_files_are_found():
+    # the demo and the limit tables must be reachable both installed and from a checkout
+    from fleetpower._resources import data_dir
+
+    assert (data_dir() / "limits" / "iec61000-3-2.csv").is_file()
+    assert (examples_dir() / "harbour-office.toml").is_file()
