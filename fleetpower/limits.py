@@ -44,7 +44,7 @@ import numpy as np
 import pandas as pd
 
 from ._resources import data_dir
-from .errors import InputError, suggest
+from .errors import FleetpowerError, InputError, suggest
 
 __all__ = [
     "COLUMNS",
@@ -386,6 +386,9 @@ def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> pd.Dat
 def _shipped() -> pd.DataFrame:
     """All shipped rows (cached per file modification time; a copy is returned)."""
     files = sorted(limits_dir().glob("*.csv"))
+    if not files:
+        raise FleetpowerError(f"no limit tables found in {limits_dir()}: the installation "
+                              "is incomplete (reinstall fleetpower)")
     stamp = tuple((str(f), f.stat().st_mtime) for f in files)
     return _shipped_cached(str(limits_dir()), stamp).copy()
 
