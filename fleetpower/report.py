@@ -318,6 +318,13 @@ def render_unit(report: dict, console: Console) -> None:
 # ----------------------------------------------------------------------------------
 # fleets
 # ----------------------------------------------------------------------------------
+def _peak_case(r) -> str:
+    flat = float(np.ptp(r.hourly["p_kw"])) <= 1e-9 * max(float(r.hourly["p_kw"].abs().max()), 1e-30)
+    when = ("every hour alike (hours per day spread evenly)" if flat
+            else f"hour {r.peak_hour:02d}:00-{r.peak_hour + 1:02d}:00")
+    return when + (", coincident (diversity) case" if r.peak_coincident else "")
+
+
 def fleet_to_dict(r) -> dict:
     """JSON-ready report of a :class:`fleetpower.fleet.FleetResult` (units in key names)."""
     site = r.spec.site
@@ -331,8 +338,7 @@ def fleet_to_dict(r) -> dict:
         "summation": r.summation_label,
         "peak_hour": r.peak_hour,
         "peak_coincident": r.peak_coincident,
-        "peak_case": (f"hour {r.peak_hour:02d}:00-{r.peak_hour + 1:02d}:00"
-                      + (", coincident (diversity) case" if r.peak_coincident else "")),
+        "peak_case": _peak_case(r),
         "p_kw": r.p_kw,
         "q1_kvar": r.q1_kvar,
         "q1_sense": "leading (capacitive)" if r.q1_kvar < 0 else "lagging (inductive)",
