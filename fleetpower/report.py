@@ -254,22 +254,33 @@ def _stress_table(stresses: list[dict]) -> Table:
     return t
 
 
-def _compliance_table(rows: list[dict]) -> Table:
-    t = Table(box=box.SIMPLE_HEAD, title="Compliance with published limits",
-              title_justify="left", pad_edge=False)
-    t.add_column("set")
-    t.add_column("quantity")
-    t.add_column("value", justify="right")
-    t.add_column("limit", justify="right")
-    t.add_column("used", justify="right")
-    t.add_column("verdict")
-    t.add_column("clause / reason", overflow="fold")
+def _compliance_tables(rows: list[dict]) -> list:
+    """One small table per limit set (its id and edition as the title), then a caption."""
+    out: list = [Text("Compliance with published limits", style="bold")]
+    sets: dict[str, list[dict]] = {}
     for r in rows:
-        used = "" if r.get("used_pct") is None else f"{r['used_pct']:.0f} %"
-        t.add_row(r["set"], r["quantity"], fmt(r.get("value"), 3, r.get("unit", "")),
-                  fmt(r.get("limit"), 3, r.get("unit", "")), used, _verdict(r["verdict"]),
-                  r.get("reason") or r.get("clause", ""))
-    return t
+        sets.setdefault(r["set"], []).append(r)
+    for name, group in sets.items():
+        t = Table(box=box.SIMPLE_HEAD, title=f"{name}  ({group[0].get('edition', '')})",
+                  title_justify="left", pad_edge=False)
+        t.add_column("quantity", min_width=19, overflow="fold")
+        t.add_column("value", justify="right")
+        t.add_column("limit", justify="right")
+        t.add_column("used", justify="right")
+        t.add_column("headroom", justify="right")
+        t.add_column("verdict")
+        t.add_column("clause / reason", overflow="fold")
+        for r in group:
+            unit = "" if r.get("unit") in ("1", "-") else r.get("unit", "")
+            used = "" if r.get("used_pct") is None else f"{r['used_pct']:.0f} %"
+            t.add_row(r["quantity"], fmt(r.get("value"), 3, unit), fmt(r.get("limit"), 3, unit),
+                      used, fmt(r.get("headroom"), 2, unit), _verdict(r["verdict"]),
+                      r.get("reason") or r.get("clause", ""))
+        out.append(t)
+    out.append(Text("Margins against the tables in data/limits/ (mostly from memory): an "
+                    "engineering aid, not a certification; the standards' texts, local "
+                    "codes and licensed practice govern.", style="dim"))
+    return out
 
 
 def render_unit(report: dict, console: Console) -> None:
@@ -309,7 +320,8 @@ def render_unit(report: dict, console: Console) -> None:
                            style="dim"))
     console.print(_stress_table(report["stresses"]))
     if report.get("compliance"):
-        console.print(_compliance_table(report["compliance"]))
+        for part in _compliance_tables(report["compliance"]):
+            console.print(part)
     if report["warnings"]:
         console.print(Panel("\n".join(f"- {w}" for w in report["warnings"]), title="Warnings",
                             border_style="yellow", title_align="left"))
