@@ -312,6 +312,17 @@ def _periodic_norm(x0, x1, idx, nd, scale):
 
 
 @njit(cache=True)
+def _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end):
+    """One cycle from ``x``; returns (status, periodicity norm) and fills ``x_end``."""
+    status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+    if status != STATUS_OK:
+        return status, np.inf
+    for i in range(x.shape[0]):
+        x_end[i] = xs[n_steps, i]
+    return status, _periodic_norm(x, x_end, idx, nd, scale)
+
+
+@njit(cache=True)
 def _shoot(p, x0, n_steps, xs, out_probe, info):
     """Periodic steady state of one variant. Fills ``xs``, ``out_probe`` and ``info``.
 
@@ -344,6 +355,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
     a = np.empty((nd, nd))
     b = np.empty((nd, 1))
     xt = np.empty(n)
+    xt_end = np.empty(n)
     x_best = x.copy()
     norm_best = np.inf
     watch = 0
@@ -356,27 +368,21 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
             i_pk = min(i_pk, vpk * p[P_OMEGA] * p[P_C1])
         vo_max = min(p[P_Z_VK] + 2.0 + p[P_Z_RZ] * i_pk, 1.05 * vpk)
 
-    status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+    x_end = np.empty(n)  # x(T) of the accepted iterate x
+    status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end)
     cycles += 1
-    if status != STATUS_OK:
-        info[0] = status
-        info[1] = cycles
-        return
-    norm = _periodic_norm(x, xs[n_steps], idx, nd, scale)
-    while cycles < MAX_SHOOTING_ITERATIONS:
+    while status == STATUS_OK and norm >= PERIODIC_RTOL and cycles < MAX_SHOOTING_ITERATIONS:
         info[2] = norm
-        if norm < PERIODIC_RTOL:
-            info[0] = STATUS_OK
-            break
-        # Newton direction on Phi(x) - x = 0
+        # Newton direction on Phi(x) - x = 0; every path below ends by integrating the
+        # accepted x, so xs, sens and x_end belong to it here
         for r in range(nd):
             i = idx[r]
             for cc in range(nd):
                 a[r, cc] = sens[i, idx[cc]] - (1.0 if r == cc else 0.0)
-            b[r, 0] = -(xs[n_steps, i] - x[i])
+            b[r, 0] = -(x_end[i] - x[i])
         if not _solve_small(a, b, nd):
             for r in range(nd):
-                b[r, 0] = xs[n_steps, idx[r]] - x[idx[r]]
+                b[r, 0] = x_end[idx[r]] - x[idx[r]]
         # no unknown moves by more than half the peak voltage at once
         lam = 1.0
         for r in range(nd):
@@ -392,13 +398,8 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
         if watch >= WATCHDOG_STEPS:
             for i in range(n):
                 x[i] = x_best[i]
-            status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+            status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end)
             cycles += 1
-            if status != STATUS_OK:
-                info[0] = status
-                info[1] = cycles
-                return
-            norm = norm_best
             watch = WATCHDOG_OFF
             continue
         accepted = False
@@ -411,56 +412,49 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
             # its clamp, nor below zero; the series capacitor not beyond the mains peak)
             xt[S_VO] = min(max(xt[S_VO], 0.0), vo_max)
             xt[S_VC1] = min(max(xt[S_VC1], -1.2 * vpk), 1.2 * vpk)
-            if _consistent(xt, 0.0, p, m, scale):
-                status = _one_cycle(p, xt, n_steps, m, scale, xs, sens)
-                cycles += 1
-                if status == STATUS_OK:
-                    trial = _periodic_norm(xt, xs[n_steps], idx, nd, scale)
-                    decrease = trial < (1.0 - 1e-4 * lam) * norm
-                    relaxed = ls == 0 and 0 <= watch < WATCHDOG_STEPS and trial < 50.0 * norm
-                    if decrease or relaxed:
-                        if not decrease and watch == 0:
-                            for i in range(n):
-                                x_best[i] = x[i]
-                            norm_best = norm
-                        if decrease and (watch == 0 or trial < norm_best):
-                            watch = 0
-                        elif not decrease:
-                            watch += 1
-                        for i in range(n):
-                            x[i] = xt[i]
-                        norm = trial
-                        accepted = True
-                        break
             lam *= 0.5
+            if not _consistent(xt, 0.0, p, m, scale):
+                continue
+            st, trial = _integrate(p, xt, n_steps, m, scale, xs, sens, idx, nd, xt_end)
+            cycles += 1
+            if st != STATUS_OK:
+                continue
+            decrease = trial < (1.0 - 2e-4 * lam) * norm
+            relaxed = ls == 0 and 0 <= watch < WATCHDOG_STEPS and trial < 50.0 * norm
+            if decrease or relaxed:
+                if not decrease and watch == 0:
+                    for i in range(n):
+                        x_best[i] = x[i]
+                    norm_best = norm
+                if decrease and (watch == 0 or trial < norm_best):
+                    watch = 0
+                elif not decrease:
+                    watch += 1
+                for i in range(n):
+                    x[i] = xt[i]
+                    x_end[i] = xt_end[i]
+                norm = trial
+                accepted = True
+                break
         if not accepted:
             # fall back to one plain cycle from the last accepted state (a physical
             # transient, which always makes progress towards a stable steady state)
-            status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
-            cycles += 1
-            if status != STATUS_OK:
-                info[0] = status
-                info[1] = cycles
-                return
             for r in range(nd):
-                x[idx[r]] = xs[n_steps, idx[r]]
+                x[idx[r]] = x_end[idx[r]]
             if not _consistent(x, 0.0, p, m, scale):
-                info[0] = STATUS_STEP_FAILED
-                info[1] = cycles
-                return
-            status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+                status = STATUS_STEP_FAILED
+                break
+            status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end)
             cycles += 1
-            if status != STATUS_OK:
-                info[0] = status
-                info[1] = cycles
-                return
-            norm = _periodic_norm(x, xs[n_steps], idx, nd, scale)
     info[1] = cycles
     info[2] = norm
-    if norm < PERIODIC_RTOL:
-        info[0] = STATUS_OK
-    if info[0] != STATUS_OK:
+    if status != STATUS_OK:
+        info[0] = status
         return
+    if norm >= PERIODIC_RTOL:
+        return  # STATUS_NOT_PERIODIC
+    info[0] = STATUS_OK
+    # xs holds the accepted iterate's cycle: the loop ends right after integrating x
     # record probes on the converged cycle (samples 0..n_steps-1)
     w = p[P_OMEGA]
     h = 2.0 * math.pi / w / n_steps
