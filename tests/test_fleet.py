@@ -15,15 +15,12 @@ import pytest
 from conftest import example_path, toml_value
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from tolerances import CANCEL_REL, REL_EXACT, REL_HAND_Q, REL_PARSEVAL
 
 from fleetpower.fleet import evaluate_fleet, load_fleet, unit_catalogue
 from fleetpower.report import fleet_to_dict
 
 # per-quantity tolerances (relative unless named *_ABS)
-REL_EXACT = 1e-9  # sums that are exact algebra up to rounding
-REL_PARSEVAL = 1e-6  # rms from a spectrum vs rms from time samples
-CANCEL_REL = 1e-9  # a cancelled phasor, relative to the uncancelled one
-REL_HAND_Q = 0.05  # hand estimate Q = -V^2 w C of a dropper vs the simulated circuit
 
 V_LN, F_HZ = 120.0, 60.0
 DROPPER, SMPS = "nightlight-dropper", "corridor-smps"

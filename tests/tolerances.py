@@ -45,3 +45,15 @@ FFT_REL = 1e-6
 SQUARE_REL = 1e-4
 #: "PF = 1 / THD = 0" of an ideal waveform, up to rounding
 EXACT = 1e-9
+
+# --- fleets ---------------------------------------------------------------------------
+#: sums that are exact algebra (P = sum of counts x unit P, N identical units = N x one)
+#: up to floating-point rounding
+REL_EXACT = 1e-9
+#: rms from a truncated (h <= 50) spectrum against rms from time samples (Parseval)
+REL_PARSEVAL = 1e-6
+#: a cancelled phasor (balanced fundamentals in the neutral), relative to the uncancelled
+CANCEL_REL = 1e-9
+#: the hand estimate Q = -N V^2 w C of a dropper fleet against the simulated circuit
+#: (the estimate ignores the clamp and the series resistor, a few per cent)
+REL_HAND_Q = 0.05
