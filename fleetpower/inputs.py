@@ -80,6 +80,7 @@ class CapacitiveDropperParts(_Strict):
     rectifier: Literal["half-wave", "bridge"]
     reservoir_capacitance: Capacitance
     capacitor_voltage_rating: Voltage | None = None
+    capacitor_rating_type: Literal["ac", "dc"] = "ac"
     zener_power_rating: Power | None = None
     zener_resistance: Resistance = 7.0
     zener_test_current: Current = 0.020
@@ -108,6 +109,7 @@ class SmpsParts(_Strict):
     bulk_capacitance: Capacitance
     rectifier: Literal["half-wave", "bridge"] = "bridge"
     x_capacitor_voltage_rating: Voltage | None = None
+    x_capacitor_rating_type: Literal["ac", "dc"] = "ac"
     series_resistor_power_rating: Power | None = None
     bleeder_power_rating: Power | None = None
     diode: DiodeSpec = DiodeSpec()

@@ -197,6 +197,7 @@ class StateResult:
     p_series_resistor_w: float
     p_bleeder_w: float
     v_cap_peak_v: float
+    v_cap_rms_v: float
     in_regulation: bool
     iterations: int
 
@@ -237,9 +238,11 @@ def _state_results(design, cases, sol) -> list[StateResult]:
             ok = bool(vo.min() >= need - 1e-9)
             vcap = pr[:, idx["v_c1_v"]]
             v_cap_peak = float(np.max(np.abs(vcap)))
+            v_cap_rms = float(np.sqrt(np.mean(vcap * vcap)))
         else:
             ok = bool(vo.min() >= design.output.undervoltage_lockout)
             v_cap_peak = float(np.max(np.abs(v)))
+            v_cap_rms = float(np.sqrt(np.mean(v * v)))
         results.append(
             StateResult(
                 state=state,
@@ -262,6 +265,7 @@ def _state_results(design, cases, sol) -> list[StateResult]:
                 p_series_resistor_w=float(mean[idx["p_series_resistor_w"]]),
                 p_bleeder_w=float(mean[idx["p_bleeder_w"]]),
                 v_cap_peak_v=v_cap_peak,
+                v_cap_rms_v=v_cap_rms,
                 in_regulation=ok,
                 iterations=int(sol.iterations[b]),
             )
@@ -457,6 +461,24 @@ def _rated(item, value, unit, rating, condition, note="") -> Stress:
                   note)
 
 
+def _capacitor_voltage(name, v_peak, v_rms, rating, kind, cond, note=""):
+    """Peak and rms voltage of a capacitor; the one its rating is stated in is checked.
+
+    Safety (X/Y) capacitors are rated in V AC rms (``kind = "ac"``, the default); a
+    DC-rated film part (``"dc"``) is checked against the peak.
+    """
+    peak = Stress(f"{name} peak voltage", v_peak, "V", None, "note", cond,
+                  "compared with a DC rating" if kind == "dc" else "")
+    rms = Stress(f"{name} rms voltage", v_rms, "V", None, "note", cond, "")
+    if kind == "dc":
+        peak = _rated(f"{name} peak voltage", v_peak, "V", rating, cond,
+                      (note + "; " if note else "") + "rating read as DC")
+    else:
+        rms = _rated(f"{name} rms voltage", v_rms, "V", rating, cond,
+                     (note + "; " if note else "") + "rating read as AC rms")
+    return [peak, rms]
+
+
 def discharge_time_s(v0_v: float, v_th_v: float, r_ohm: float, c_f: float) -> float:
     """Time [s] for an RC discharge from ``v0_v`` to fall below ``v_th_v``: RC ln(V0/Vth)."""
     return 0.0 if v0_v <= v_th_v else r_ohm * c_f * math.log(v0_v / v_th_v)
@@ -485,14 +507,17 @@ def stresses(design: Design, stressed: list[StateResult]) -> list[Stress]:
         r_inrush += parts.dropper_resistance
     if design.topology == "capacitive-dropper":
         v_cap = max(r.v_cap_peak_v for r in stressed)
-        out.append(_rated("series capacitor peak voltage", v_cap, "V",
-                          parts.capacitor_voltage_rating, cond,
-                          "an X2-class part is usual for a series dropper capacitor"))
+        v_rms = max(r.v_cap_rms_v for r in stressed)
+        out += _capacitor_voltage("series capacitor", v_cap, v_rms,
+                                  parts.capacitor_voltage_rating,
+                                  parts.capacitor_rating_type, cond,
+                                  "an X2-class part is usual for a series dropper capacitor")
         cap, rb = parts.series_capacitance, parts.bleeder_resistance
     elif design.topology == "rectifier-smps":
         v_cap = vpk_hi
-        out.append(_rated("X capacitor peak voltage", v_cap, "V",
-                          parts.x_capacitor_voltage_rating, cond))
+        out += _capacitor_voltage("X capacitor", v_cap, v_cap / math.sqrt(2),
+                                  parts.x_capacitor_voltage_rating,
+                                  parts.x_capacitor_rating_type, cond)
         cap, rb = parts.x_capacitance, parts.bleeder_resistance
     else:
         cap = rb = None

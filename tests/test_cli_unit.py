@@ -427,3 +427,24 @@ def test_user_limit_file_missing(cli, tmp_path):
     rc, _, err = cli("unit", HEATER, "--state", "relay_off", "--limits", path)
     assert rc == 2
     assert one_line_error(err, f"fleetpower: {path}: ") == "limit file not found"
+
+
+def test_lighting_driver_without_pfc_fails_class_c(cli):
+    # IEC 61000-3-2:2018 Table 2 (Class C, lighting > 25 W), from memory: the 3rd harmonic
+    # may be at most 30·λ % of the fundamental, λ the circuit power factor. A capacitor-input
+    # bridge rectifier draws a 3rd harmonic near 90 % of I1 (common practice, no source),
+    # so it must fail; the limit must be exactly 0.30·λ·I1 of the reported figures.
+    rc, out, err = cli("unit", str(example_path("led-driver-40w")), "--state", "full",
+                       "--json")  # fmt: skip
+    assert rc == 0, err
+    d = json.loads(out)
+    i1 = d["harmonics"][0]["i_rms_a"]
+    h3 = next(r for r in d["compliance"] if r["quantity"] == "i_h3_a")
+    assert h3["set"] == "iec61000-3-2-class-c"
+    assert h3["limit"] == pytest.approx(0.30 * d["pf"] * i1, rel=1e-6)
+    assert h3["value"] == pytest.approx(d["harmonics"][2]["i_rms_a"], rel=1e-12)
+    assert h3["verdict"] == "fail"
+    # its X capacitor is rated 310 V AC and sees 1.1 x 230 V rms: passes as an AC rating
+    xrms = next(s for s in d["stresses"] if s["item"] == "X capacitor rms voltage")
+    assert xrms["value"] == pytest.approx(1.1 * 230.0, rel=1e-3)
+    assert xrms["verdict"] == "pass"
