@@ -32,6 +32,14 @@ rectifier-smps
     the source voltage); R_series -> rectifier -> bulk C_o; the converter draws a power
     ``p_conv`` from C_o above its undervoltage lockout.
 
+mains-transformer
+    a 50/60 Hz transformer in its approximate equivalent circuit referred to the primary:
+    the magnetizing inductance L_m and core-loss resistance R_c on the source EMF (their
+    currents computed from it), then the winding resistance (primary plus secondary
+    referred, R_series) and leakage inductance (L_src row) in series, and an ideal n:1
+    transformer: the rectifier sees v_a / n and reflects its current as i / n. No
+    saturation, no zener; a linear regulator after the reservoir.
+
 Conventions: consumer sign (current into the supply positive), source voltage
 ``v_s = V_pk sin(omega t)``, node voltages to neutral.
 
@@ -62,6 +70,7 @@ from .devices import (
 CAPACITIVE_DROPPER = 0
 RESISTIVE_DROPPER = 1
 RECTIFIER_SMPS = 2
+MAINS_TRANSFORMER = 3
 HALF_WAVE = 0
 BRIDGE = 1
 
@@ -91,7 +100,10 @@ P_PCONV = 21  # converter input power at this state [W]
 P_ETA = 22  # converter efficiency at this state [-]
 P_UVLO = 23  # converter undervoltage lockout [V]
 P_CX = 24  # X capacitance [F]
-N_PARAMS = 25
+P_NTURNS = 25  # turns ratio primary:secondary (1 where there is no transformer) [-]
+P_LM = 26  # magnetizing inductance, primary side [H]
+P_RC = 27  # core-loss resistance, primary side [ohm]
+N_PARAMS = 28
 
 N_STATES = 4
 S_VC1, S_VO, S_VA, S_IS = 0, 1, 2, 3
@@ -117,6 +129,8 @@ PROBES = (
     "v_o_v",
     "i_zener_a",
     "v_out_v",
+    "p_core_w",
+    "p_store_magnetizing_w",
 )
 N_PROBES = len(PROBES)
 #: probes that are losses inside the supply (their means are the loss budget)
@@ -128,6 +142,7 @@ LOSS_PROBES = (
     "p_regulator_pass_w",
     "p_regulator_quiescent_w",
     "p_converter_w",
+    "p_core_w",
 )
 #: probes of energy storage (mean zero in periodic steady state)
 STORAGE_PROBES = (
@@ -135,6 +150,7 @@ STORAGE_PROBES = (
     "p_store_reservoir_w",
     "p_store_x_capacitor_w",
     "p_store_inductance_w",
+    "p_store_magnetizing_w",
 )
 
 #: regulator turn-on width at zero input voltage [V] (keeps the sink passive near 0 V)
@@ -209,21 +225,21 @@ def residual(x, t, p, f):
     else:
         f[S_VC1] = -vc1
     i_load = _load_current_a(vo, p)
+    n = p[P_NTURNS]
+    vr = va / n  # rectifier input voltage (the secondary's, for a transformer)
+    zener = topo == CAPACITIVE_DROPPER or topo == RESISTIVE_DROPPER
     if rect == HALF_WAVE:
-        i_d = diode_current_a(va - vo, p[P_D_IS], p[P_D_NVT])
+        i_d = diode_current_a(vr - vo, p[P_D_IS], p[P_D_NVT])
         f[S_VO] = i_d - i_load
-        if topo == RECTIFIER_SMPS:
-            f[S_VA] = i_s - i_d
-        else:
-            f[S_VA] = i_s - _zener_current_a(va, p) - i_d
+        f[S_VA] = i_s - i_d / n
+        if zener:
+            f[S_VA] -= _zener_current_a(va, p)
     else:
-        i1, i2 = _bridge_paths_a(va, vo, p)
-        i_dc = i1 + i2
-        if topo == RECTIFIER_SMPS:
-            f[S_VO] = i_dc - i_load
-        else:
-            f[S_VO] = i_dc - _zener_current_a(vo, p) - i_load
-        f[S_VA] = i_s - (i1 - i2)
+        i1, i2 = _bridge_paths_a(vr, vo, p)
+        f[S_VO] = i1 + i2 - i_load
+        if zener:
+            f[S_VO] -= _zener_current_a(vo, p)
+        f[S_VA] = i_s - (i1 - i2) / n
     f[S_IS] = vs - (p[P_RSER] + p[P_RSRC]) * i_s - vc1 - va
 
 
@@ -268,25 +284,27 @@ def jacobian(x, t, p, jac):
     else:
         jac[S_VC1, S_VC1] = -1.0
     g_load = _load_conductance_s(vo, p)
+    n = p[P_NTURNS]
+    vr = va / n
+    zener = topo == CAPACITIVE_DROPPER or topo == RESISTIVE_DROPPER
+    jac[S_VA, S_IS] = 1.0
     if rect == HALF_WAVE:
-        gd = diode_conductance_s(va - vo, p[P_D_IS], p[P_D_NVT])
-        jac[S_VO, S_VA] = gd
+        gd = diode_conductance_s(vr - vo, p[P_D_IS], p[P_D_NVT])
+        jac[S_VO, S_VA] = gd / n
         jac[S_VO, S_VO] = -gd - g_load
-        jac[S_VA, S_IS] = 1.0
-        jac[S_VA, S_VO] = gd
-        jac[S_VA, S_VA] = -gd
-        if topo != RECTIFIER_SMPS:
+        jac[S_VA, S_VO] = gd / n
+        jac[S_VA, S_VA] = -gd / (n * n)
+        if zener:
             jac[S_VA, S_VA] -= _zener_conductance_s(va, p)
     else:
-        g1 = 0.5 * diode_conductance_s(0.5 * (va - vo), p[P_D_IS], p[P_D_NVT])
-        g2 = 0.5 * diode_conductance_s(0.5 * (-va - vo), p[P_D_IS], p[P_D_NVT])
-        jac[S_VO, S_VA] = g1 - g2
+        g1 = 0.5 * diode_conductance_s(0.5 * (vr - vo), p[P_D_IS], p[P_D_NVT])
+        g2 = 0.5 * diode_conductance_s(0.5 * (-vr - vo), p[P_D_IS], p[P_D_NVT])
+        jac[S_VO, S_VA] = (g1 - g2) / n
         jac[S_VO, S_VO] = -g1 - g2 - g_load
-        if topo != RECTIFIER_SMPS:
+        if zener:
             jac[S_VO, S_VO] -= _zener_conductance_s(vo, p)
-        jac[S_VA, S_IS] = 1.0
-        jac[S_VA, S_VA] = -(g1 + g2)
-        jac[S_VA, S_VO] = g1 - g2
+        jac[S_VA, S_VA] = -(g1 + g2) / (n * n)
+        jac[S_VA, S_VO] = (g1 - g2) / n
     jac[S_IS, S_IS] = -(p[P_RSER] + p[P_RSRC])
     jac[S_IS, S_VC1] = -1.0
     jac[S_IS, S_VA] = -1.0
@@ -315,6 +333,12 @@ def probes(x, t, p, out):
         i_line = i_s + i_x + i_bl
         out[4] = vs * i_bl
         out[13] = vs * i_x
+    elif topo == MAINS_TRANSFORMER:
+        i_m = -p[P_VPK] / (w * p[P_LM]) * math.cos(w * t)
+        i_c = vs / p[P_RC]
+        i_line = i_s + i_m + i_c
+        out[19] = vs * i_c
+        out[20] = vs * i_m
     elif topo == CAPACITIVE_DROPPER:
         out[4] = vc1 * vc1 / p[P_RB]
         out[11] = vc1 * (i_s - vc1 / p[P_RB])
@@ -324,17 +348,20 @@ def probes(x, t, p, out):
     out[3] = p[P_RSRC] * i_s * i_s
     out[14] = f[S_IS] * i_s  # L di/dt * i (zero when L_src = 0)
 
+    n = p[P_NTURNS]
+    vr = va / n
+    zener = topo == CAPACITIVE_DROPPER or topo == RESISTIVE_DROPPER
     if rect == HALF_WAVE:
-        i_d = diode_current_a(va - vo, p[P_D_IS], p[P_D_NVT])
-        out[6] = (va - vo) * i_d
-        if topo != RECTIFIER_SMPS:
+        i_d = diode_current_a(vr - vo, p[P_D_IS], p[P_D_NVT])
+        out[6] = (vr - vo) * i_d
+        if zener:
             iz = _zener_current_a(va, p)
             out[5] = va * iz
             out[17] = iz
     else:
-        i1, i2 = _bridge_paths_a(va, vo, p)
-        out[6] = (va - vo) * i1 + (-va - vo) * i2
-        if topo != RECTIFIER_SMPS:
+        i1, i2 = _bridge_paths_a(vr, vo, p)
+        out[6] = (vr - vo) * i1 + (-vr - vo) * i2
+        if zener:
             iz = _zener_current_a(vo, p)
             out[5] = vo * iz
             out[17] = iz

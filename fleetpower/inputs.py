@@ -21,7 +21,7 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover
     import tomli as tomllib
 
-TOPOLOGIES = ("capacitive-dropper", "resistive-dropper", "rectifier-smps")
+TOPOLOGIES = ("capacitive-dropper", "resistive-dropper", "rectifier-smps", "mains-transformer")
 
 
 class _UnitError(ValueError):
@@ -115,6 +115,20 @@ class SmpsParts(_Strict):
     diode: DiodeSpec = DiodeSpec()
 
 
+class TransformerParts(_Strict):
+    """A 50/60 Hz mains transformer as its datasheet describes it, then a rectifier."""
+
+    secondary_voltage: Voltage  # open-circuit rms at rated mains
+    rated_power: Power  # nameplate VA
+    regulation_pct: Annotated[float, Field(gt=0, lt=100)]  # no-load to full-load drop
+    no_load_power: Power  # core loss at rated mains
+    no_load_current: Current | None = None  # magnetizing + core-loss current, rms
+    leakage_inductance: InductanceNN = 0.0  # primary-referred
+    rectifier: Literal["half-wave", "bridge"] = "bridge"
+    reservoir_capacitance: Capacitance
+    diode: DiodeSpec = DiodeSpec()
+
+
 class LinearOutput(_Strict):
     """Linear regulator after the reservoir of a dropper."""
 
@@ -146,7 +160,8 @@ class Design(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True)
 
     name: str
-    topology: Literal["capacitive-dropper", "resistive-dropper", "rectifier-smps"]
+    topology: Literal["capacitive-dropper", "resistive-dropper", "rectifier-smps",
+                      "mains-transformer"]
     unit_price: Annotated[float, Field(ge=0)] | None = None
     role: str | None = None
     equipment_class: Literal["A", "B", "C", "D"] | None = None
@@ -154,20 +169,28 @@ class Design(BaseModel):
     isolated: bool | None = None
     rated_state: str | None = None
     mains: Mains
-    parts: CapacitiveDropperParts | ResistiveDropperParts | SmpsParts
+    parts: CapacitiveDropperParts | ResistiveDropperParts | SmpsParts | TransformerParts
     output: LinearOutput | ConverterOutput
     states: dict[str, tuple[str, float]]
     source: str = "<input>"
 
     @property
     def is_dropper(self) -> bool:
-        return self.topology != "rectifier-smps"
+        """A capacitive or resistive dropper (non-isolated, zener-clamped)."""
+        return self.topology in ("capacitive-dropper", "resistive-dropper")
+
+    @property
+    def has_linear_regulator(self) -> bool:
+        return isinstance(self.output, LinearOutput)
 
     @property
     def is_isolated(self) -> bool:
-        """Droppers are never isolated; a switch-mode supply is unless the file says not."""
+        """Droppers are never isolated; a transformer always; a switch-mode supply is
+        unless the file says not."""
         if self.is_dropper:
             return False
+        if self.topology == "mains-transformer":
+            return True
         return True if self.isolated is None else self.isolated
 
     def load_current_a(self, state: str) -> float:
@@ -185,11 +208,13 @@ _PARTS = {
     "capacitive-dropper": CapacitiveDropperParts,
     "resistive-dropper": ResistiveDropperParts,
     "rectifier-smps": SmpsParts,
+    "mains-transformer": TransformerParts,
 }
 _OUTPUT = {
     "capacitive-dropper": LinearOutput,
     "resistive-dropper": LinearOutput,
     "rectifier-smps": ConverterOutput,
+    "mains-transformer": LinearOutput,
 }
 
 
@@ -307,7 +332,14 @@ def design_from_dict(data: dict, file: str = "<input>") -> Design:
             "rated_state",
             f"unknown state {design.rated_state!r}{suggest(design.rated_state, design.states)}",
         )
-    if isinstance(output, LinearOutput) and output.voltage >= parts.zener_voltage:
+    if isinstance(parts, TransformerParts):
+        if parts.no_load_current is not None and \
+                parts.no_load_current <= parts.no_load_power / mains.voltage:
+            raise InputError(file, "parts.no_load_current",
+                             "must exceed the core-loss current no_load_power / voltage")
+        if output.voltage >= parts.secondary_voltage * 2**0.5:
+            raise InputError(file, "output.voltage", "is above the secondary's peak voltage")
+    elif isinstance(output, LinearOutput) and output.voltage >= parts.zener_voltage:
         raise InputError(
             file, "output.voltage", "must be below parts.zener_voltage (the clamp feeds it)"
         )

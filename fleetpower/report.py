@@ -263,7 +263,7 @@ def _compliance_tables(rows: list[dict]) -> list:
     for name, group in sets.items():
         t = Table(box=box.SIMPLE_HEAD, title=f"{name}  ({group[0].get('edition', '')})",
                   title_justify="left", pad_edge=False)
-        t.add_column("quantity", min_width=19, overflow="fold")
+        t.add_column("quantity", min_width=12, overflow="fold")
         t.add_column("value", justify="right")
         t.add_column("limit", justify="right")
         t.add_column("used", justify="right")

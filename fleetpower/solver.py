@@ -45,10 +45,12 @@ from numba import njit, prange
 
 from .circuits import (
     CAPACITIVE_DROPPER,
+    MAINS_TRANSFORMER,
     N_PARAMS,
     N_PROBES,
     N_STATES,
     P_C1,
+    P_NTURNS,
     P_OMEGA,
     P_RSER,
     P_RSRC,
@@ -362,6 +364,8 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
     cycles = 0
     if int(p[P_TOPO]) == RECTIFIER_SMPS:
         vo_max = 1.05 * vpk
+    elif int(p[P_TOPO]) == MAINS_TRANSFORMER:
+        vo_max = 1.05 * vpk / p[P_NTURNS]
     else:  # the zener's voltage at the largest current the series branch can pass
         i_pk = vpk / r_tot
         if int(p[P_TOPO]) == CAPACITIVE_DROPPER:

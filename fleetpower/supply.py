@@ -58,6 +58,49 @@ def converter_input_power_w(out: ConverterOutput, p_out_w: float) -> tuple[float
     return p_in, p_out_w / p_in
 
 
+#: magnetizing current as a multiple of the core-loss current when the no-load current is
+#: not given (no-load power factor about 0.3 for small mains transformers, from memory)
+DEFAULT_MAGNETIZING_TO_CORE_CURRENT = 3.0
+
+
+def transformer_model(design: Design) -> dict[str, float]:
+    r"""Equivalent-circuit values of a mains transformer from its datasheet figures.
+
+    Notes
+    -----
+    Referred to the primary (rated mains voltage V, frequency f, rating S):
+
+    - turns ratio :math:`n = V / V_{2,oc}` (open-circuit secondary voltage);
+    - winding resistance from the regulation r (no-load to full-load drop, resistive load):
+      :math:`R_w = r\,V / I_{rated} = r\,V^2 / S`;
+    - core-loss resistance :math:`R_c = V^2 / P_0` from the no-load power;
+    - magnetizing inductance :math:`L_m = V / (\omega I_m)` with
+      :math:`I_m = \sqrt{I_0^2 - (P_0/V)^2}` from the no-load current (or
+      :data:`DEFAULT_MAGNETIZING_TO_CORE_CURRENT` times the core-loss current).
+
+    The magnetizing branch sits on the source EMF (the usual approximate equivalent
+    circuit); the core does not saturate.
+
+    References
+    ----------
+    .. [1] A. E. Fitzgerald, C. Kingsley, S. D. Umans, *Electric Machinery*, 6th ed.,
+       ch. 2 (approximate equivalent circuit; open- and short-circuit tests).
+    """
+    parts, v = design.parts, design.mains.voltage
+    w = 2 * math.pi * design.mains.frequency
+    i_c = parts.no_load_power / v
+    if parts.no_load_current is None:
+        i_m = DEFAULT_MAGNETIZING_TO_CORE_CURRENT * i_c
+    else:
+        i_m = math.sqrt(parts.no_load_current**2 - i_c**2)
+    return {
+        "turns_ratio": v / parts.secondary_voltage,
+        "winding_resistance_ohm": parts.regulation_pct / 100.0 * v * v / parts.rated_power,
+        "core_resistance_ohm": v * v / parts.no_load_power,
+        "magnetizing_inductance_h": v / (w * i_m),
+    }
+
+
 def circuit_rows(
     design: Design, state: str, mains_factor: float = 1.0, load_a: float | None = None
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -84,7 +127,9 @@ def circuit_rows(
         "capacitive-dropper": c.CAPACITIVE_DROPPER,
         "resistive-dropper": c.RESISTIVE_DROPPER,
         "rectifier-smps": c.RECTIFIER_SMPS,
+        "mains-transformer": c.MAINS_TRANSFORMER,
     }[design.topology]
+    p[c.P_NTURNS] = 1.0
     p[c.P_TOPO] = topo
     p[c.P_RECT] = c.BRIDGE if parts.rectifier == "bridge" else c.HALF_WAVE
     vpk = mains.voltage * math.sqrt(2.0) * mains_factor
@@ -110,7 +155,24 @@ def circuit_rows(
         p[c.P_UVLO] = out.undervoltage_lockout
         x0[c.S_VO] = 0.95 * vpk
         return p, x0
-    # droppers
+    # linear regulator (droppers and transformers)
+    p[c.P_ILOAD] = design.load_current_a(state) if load_a is None else load_a
+    p[c.P_IQ] = out.quiescent_current
+    p[c.P_VOUT] = out.voltage
+    p[c.P_VDO] = out.dropout
+    p[c.P_CO] = parts.reservoir_capacitance
+    vf = parts.diode.forward_voltage
+    if topo == c.MAINS_TRANSFORMER:
+        tr = transformer_model(design)
+        p[c.P_NTURNS] = tr["turns_ratio"]
+        p[c.P_RSER] = tr["winding_resistance_ohm"]
+        p[c.P_LSRC] += parts.leakage_inductance
+        p[c.P_LM] = tr["magnetizing_inductance_h"]
+        p[c.P_RC] = tr["core_resistance_ohm"]
+        v_sec_pk = vpk / tr["turns_ratio"]
+        drops = 2 * vf if parts.rectifier == "bridge" else vf
+        x0[c.S_VO] = max(0.9 * v_sec_pk - drops, 0.0)
+        return p, x0
     p[c.P_RSER] = parts.series_resistance + (
         parts.dropper_resistance if topo == c.RESISTIVE_DROPPER else 0.0
     )
@@ -119,16 +181,10 @@ def circuit_rows(
         p[c.P_RB] = parts.bleeder_resistance
     else:
         p[c.P_RB] = 1.0  # unused: row 0 reads v_c1 = 0
-    p[c.P_CO] = parts.reservoir_capacitance
     vk, s = zener_knee(parts.zener_voltage, parts.zener_test_current, parts.zener_resistance)
     p[c.P_Z_VK], p[c.P_Z_S], p[c.P_Z_RZ] = vk, s, parts.zener_resistance
     p[c.P_ZF_IS] = p[c.P_D_IS]
     p[c.P_ZF_NVT] = nvt
-    p[c.P_ILOAD] = design.load_current_a(state) if load_a is None else load_a
-    p[c.P_IQ] = out.quiescent_current
-    p[c.P_VOUT] = out.voltage
-    p[c.P_VDO] = out.dropout
-    vf = parts.diode.forward_voltage
     if p[c.P_RECT] == c.HALF_WAVE:
         x0[c.S_VO] = parts.zener_voltage - vf
         x0[c.S_VC1] = -parts.zener_voltage
@@ -151,6 +207,7 @@ LOSS_LABELS = {
     "p_regulator_pass_w": "regulator (pass element)",
     "p_regulator_quiescent_w": "regulator (quiescent)",
     "p_converter_w": "converter",
+    "p_core_w": "transformer core",
 }
 
 
@@ -218,6 +275,8 @@ def _state_results(design, cases, sol) -> list[StateResult]:
         labels = dict(LOSS_LABELS)
         if design.topology == "resistive-dropper":
             labels["p_series_resistor_w"] = "dropper resistor"
+        elif design.topology == "mains-transformer":
+            labels["p_series_resistor_w"] = "transformer windings"
         losses = {
             labels[k]: float(mean[idx[k]])
             for k in c.LOSS_PROBES
@@ -233,7 +292,7 @@ def _state_results(design, cases, sol) -> list[StateResult]:
         vo = pr[:, idx["v_o_v"]]
         v_out = pr[:, idx["v_out_v"]]
         iz = pr[:, idx["i_zener_a"]]
-        if design.is_dropper:
+        if design.has_linear_regulator:
             need = design.output.voltage + design.output.dropout
             ok = bool(vo.min() >= need - 1e-9)
             vcap = pr[:, idx["v_c1_v"]]
@@ -258,7 +317,7 @@ def _state_results(design, cases, sol) -> list[StateResult]:
                 v_dc_min_v=float(vo.min()),
                 ripple_v_pp=float(vo.max() - vo.min()),
                 i_dc_a=(load_a * float(np.mean(v_out)) / design.output.voltage
-                        if design.is_dropper else load_a),
+                        if design.has_linear_regulator else load_a),
                 v_out_min_v=float(v_out.min()),
                 i_zener_reverse_a=float(np.mean(np.clip(iz, 0.0, None))),
                 p_zener_w=float(mean[idx["p_zener_w"]]),
@@ -334,10 +393,13 @@ def max_deliverable_current_a(
     Found by bracketing: each round solves ``points`` loads in one batch and narrows to
     the last load whose reservoir minimum stays above output voltage + dropout.
     """
-    if not design.is_dropper:
-        raise ValueError("only droppers have a current limit set by their parts")
+    if not design.has_linear_regulator:
+        raise ValueError("only linear-regulator supplies have a current limit set by their parts")
     state = next(iter(design.states))
-    hi = 1.5 * max(charge_pump_limit_a(design), 1e-3)
+    if design.topology == "mains-transformer":  # well beyond the nameplate rating
+        hi = 3.0 * design.parts.rated_power / design.parts.secondary_voltage
+    else:
+        hi = 1.5 * max(charge_pump_limit_a(design), 1e-3)
     lo = 0.0
     for _ in range(rounds):
         loads = np.linspace(lo, hi, points)
@@ -496,12 +558,32 @@ def discharge_rules() -> list[tuple[float, float, str]]:
     return rules
 
 
+def _transformer_stresses(design: Design, stressed: list[StateResult], cond: str):
+    """Loading of a mains transformer against its nameplate, at +10 % mains."""
+    parts = design.parts
+    r_w = transformer_model(design)["winding_resistance_ohm"]
+    # winding current from the winding loss (I = sqrt(P / R)), times the rated voltage: the
+    # load the windings carry, which is what the nameplate VA limits (it heats them)
+    s_load = max(design.mains.voltage * math.sqrt(r.p_series_resistor_w / r_w) for r in stressed)
+    return [
+        _rated("transformer load (winding current x rated voltage)", s_load, "VA",
+               parts.rated_power, cond, "against the nameplate VA"),
+        Stress("inrush peak, winding-limited", design.mains.voltage * math.sqrt(2)
+               * STRESS_MAINS_FACTOR / r_w, "A", None, "note",
+               f"Vpk x {STRESS_MAINS_FACTOR:.2f} / winding resistance",
+               "a lower bound: magnetizing inrush from core saturation (not modelled) "
+               "can be far higher"),
+    ]
+
+
 def stresses(design: Design, stressed: list[StateResult]) -> list[Stress]:
     """Component stresses from the states simulated at +10 % mains."""
     parts = design.parts
     cond = f"worst state at {STRESS_MAINS_FACTOR:.2f}x mains"
     vpk_hi = design.mains.voltage * math.sqrt(2) * STRESS_MAINS_FACTOR
     out: list[Stress] = []
+    if design.topology == "mains-transformer":
+        return _transformer_stresses(design, stressed, cond)
     r_inrush = parts.series_resistance + design.mains.source_resistance
     if design.topology == "resistive-dropper":
         r_inrush += parts.dropper_resistance
@@ -600,7 +682,7 @@ def analyse_unit(design: Design, states: list[str] | None = None) -> UnitAnalysi
     warnings: list[str] = []
     max_a = None
     hand = None
-    if design.is_dropper:
+    if design.has_linear_regulator:
         if any(not r.in_regulation for r in nominal) or design.topology == "capacitive-dropper":
             max_a = max_deliverable_current_a(design)
         for r in nominal:
@@ -621,9 +703,11 @@ def analyse_unit(design: Design, states: list[str] | None = None) -> UnitAnalysi
                 )
     for r in nominal:
         if abs(r.pq.i_dc_a) > 1e-3 * max(r.pq.i_rms_a, 1e-12) and abs(r.pq.i_dc_a) > 1e-4:
+            why = ("a DC bias saturates a real transformer's core, which the model does not"
+                   if design.topology == "mains-transformer"
+                   else "half-wave rectifier without a series capacitor")
             warnings.append(
-                f"state '{r.state}': draws {r.pq.i_dc_a * 1e3:.2f} mA DC from the mains "
-                "(half-wave rectifier without a series capacitor)"
+                f"state '{r.state}': draws {r.pq.i_dc_a * 1e3:.2f} mA DC from the mains ({why})"
             )
         if abs(r.balance.residual_pct) > 0.5:
             warnings.append(
