@@ -177,7 +177,7 @@ def cmd_demo(args) -> int:
 #: the bundled scenario `fleetpower demo` runs
 DEMO_FLEET = "harbour-office.toml"
 DEMO_DESIGNS = ("sensor-dropper-230.toml", "desk-sensor-dropper-lean.toml",
-                "desk-sensor-smps-230.toml")
+                "desk-sensor-smps-230.toml", "desk-sensor-transformer-230.toml")
 
 
 def _add_outputs(p) -> None:

@@ -186,10 +186,11 @@ def compare(
             continue
         pb = E.payback_year(c.lifetime["cost_cumulative_discounted"].to_numpy(),
                             cheapest.lifetime["cost_cumulative_discounted"].to_numpy())
+        reason = pb.reason.replace("design a", c.label).replace("design b", cheapest.label)
+        if pb.year is not None:
+            reason += f" against {cheapest.label}, the cheapest to buy"
         paybacks.append({"design": c.label, "against": cheapest.label,
-                         "payback_year": pb.year, "reason":
-                         pb.reason.replace("design a", c.label).replace("design b",
-                                                                        cheapest.label)})
+                         "payback_year": pb.year, "reason": reason})
     return Comparison(
         fleet_name=spec.name, fleet_file=spec.file, currency=spec.site.currency,
         years=years, rate=rate, escalation=esc, candidates=candidates, paybacks=paybacks,

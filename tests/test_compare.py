@@ -165,6 +165,6 @@ def test_candidate_without_matching_role_is_a_clear_error(tmp_path):
 def test_demo_json_runs_end_to_end(capsys):
     assert main(["demo", "--json"]) == 0
     d = json.loads(capsys.readouterr().out)
-    assert len(d["designs"]) == 3
+    assert len(d["designs"]) == 4
     assert d["recommendation"].startswith("Choose ")
     assert any(not x["isolated"] for x in d["designs"]) and d["caution"]
