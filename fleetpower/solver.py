@@ -165,7 +165,7 @@ def _consistent(x, t, p, m, scale):
     jac = np.empty((n, n))
     a = np.empty((n, n))
     b = np.empty((n, 1))
-    for _ in range(MAX_NEWTON_ITERATIONS):
+    for _ in range(4 * MAX_NEWTON_ITERATIONS):
         residual(x, t, p, f)
         _jacobian(x, t, p, f, jac, scale)
         for i in range(n):
@@ -179,9 +179,15 @@ def _consistent(x, t, p, m, scale):
                 b[i, 0] = 0.0
         if not _solve_small(a, b, n):
             return False
+        # limit each update to 5 % of the unknown's scale (junction-voltage limiting, as
+        # SPICE does): from a reverse-biased diode the first Newton step is far too long
+        worst = 0.0
+        for i in range(n):
+            worst = max(worst, abs(b[i, 0]) / scale[i])
+        shrink = 1.0 if worst <= 0.05 else 0.05 / worst
         done = True
         for i in range(n):
-            x[i] += b[i, 0]
+            x[i] += shrink * b[i, 0]
             if abs(b[i, 0]) > 1e-12 * scale[i] + 1e-10 * abs(x[i]):
                 done = False
         if done:

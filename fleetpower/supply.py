@@ -172,6 +172,11 @@ def circuit_rows(
         v_sec_pk = vpk / tr["turns_ratio"]
         drops = 2 * vf if parts.rectifier == "bridge" else vf
         x0[c.S_VO] = max(0.9 * v_sec_pk - drops, 0.0)
+        if parts.rectifier == "half-wave":
+            # the diode at zero bias: consistent with a zero series current, which is the
+            # initial state when leakage inductance makes the series current a state (the
+            # solver would also get there from v_a = 0, in more limited Newton steps)
+            x0[c.S_VA] = tr["turns_ratio"] * x0[c.S_VO]
         return p, x0
     p[c.P_RSER] = parts.series_resistance + (
         parts.dropper_resistance if topo == c.RESISTIVE_DROPPER else 0.0

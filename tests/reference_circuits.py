@@ -1,7 +1,8 @@
 """Brute-force reference model of fleetpower's circuits, for acceptance tests and benchmarks.
 
 Written from the physical description of the topologies (the docstrings of
-:mod:`fleetpower.circuits` and :mod:`fleetpower.devices`), **not** from the engine's code:
+:mod:`fleetpower.circuits`, :mod:`fleetpower.devices` and, for the transformer, of
+``fleetpower.supply.transformer_model``), **not** from the engine's code:
 nothing here imports ``fleetpower.circuits``, ``fleetpower.solver`` or
 ``fleetpower.supply``. Only the datasheet-to-model helpers of :mod:`fleetpower.devices`
 (``diode_saturation_current_a``, ``zener_knee`` and the physical constants) are used,
@@ -20,7 +21,19 @@ bracket ``[x0, x0 + R g(x0)]``. The ODE is integrated from t = 0 with scipy's Ra
 initial state, until the line current stops changing from one cycle to the next; the
 last cycle is then sampled uniformly and analysed with :mod:`numpy.fft` directly.
 
-Source inductance is not modelled (every design used with this module has none).
+Mains transformer (approximate equivalent circuit referred to the primary; Fitzgerald,
+Kingsley & Umans, *Electric Machinery*, ch. 2): the magnetizing inductance L_m and the
+core-loss resistance R_c sit on the source EMF ``v_s``, so their currents are known in
+closed form (the steady-state current of an inductor on a sine, ``-Vpk/(w L_m) cos wt``,
+and ``v_s/R_c``); the winding resistance R_w (plus the source's) carries the branch
+current to node ``a`` on the primary of an ideal n:1 transformer, whose secondary
+``v_a/n`` feeds the rectifier and whose primary current is the rectifier's ``/ n``. The
+equivalent-circuit values are derived here again from the datasheet figures
+(:func:`transformer_equivalent`). The KCL residual at ``a`` then has slope
+``-1/R - g_rect/n^2``, still at most ``-1/R``, so the bracket above holds.
+
+Source and leakage inductance are not modelled (every design used with this module has
+none): asking for them raises ``NotImplementedError``.
 """
 
 from __future__ import annotations
@@ -69,6 +82,40 @@ def zener_reverse(v: float, vk: float, s: float, rz: float) -> tuple[float, floa
 # ----------------------------------------------------------------------------------------
 # model parameters, taken from the design's physical figures
 # ----------------------------------------------------------------------------------------
+#: magnetizing current as a multiple of the core-loss current when a transformer's
+#: no-load current is not given: the design format's stated default (a no-load power
+#: factor of about 1/sqrt(10) = 0.32 for small mains transformers, from memory)
+MAGNETIZING_TO_CORE_CURRENT_DEFAULT = 3.0
+
+
+def transformer_equivalent(design) -> dict[str, float]:
+    """Primary-referred equivalent circuit of a mains transformer from its datasheet.
+
+    Open-circuit test figures give the shunt branch: the no-load power P0 is all core
+    loss at rated voltage V, so R_c = V^2 / P0; the no-load current I0 is the phasor sum
+    of the in-phase core-loss current P0/V and the quadrature magnetizing current, so
+    I_m = sqrt(I0^2 - (P0/V)^2) and L_m = V / (w I_m). The turns ratio is V over the
+    open-circuit secondary voltage. The regulation r (no-load to full-load drop at the
+    rated current S/V, resistive load) is the drop across the series (winding) resistance,
+    R_w I_rated = r V, so R_w = r V^2 / S (Fitzgerald, Kingsley & Umans, Electric
+    Machinery, ch. 2: approximate equivalent circuit, open- and short-circuit tests).
+    """
+    parts, v = design.parts, design.mains.voltage
+    omega = 2.0 * math.pi * design.mains.frequency
+    i_core = parts.no_load_power / v
+    if parts.no_load_current is None:
+        i_mag = MAGNETIZING_TO_CORE_CURRENT_DEFAULT * i_core
+    else:
+        i_mag = math.sqrt(parts.no_load_current**2 - i_core**2)
+    i_rated = parts.rated_power / v
+    return {
+        "turns_ratio": v / parts.secondary_voltage,
+        "winding_resistance_ohm": parts.regulation_pct / 100.0 * v / i_rated,
+        "core_resistance_ohm": v**2 / parts.no_load_power,
+        "magnetizing_inductance_h": v / (omega * i_mag),
+    }
+
+
 def converter_input_power(design, state: str) -> float:
     """Converter input power [W] at a state's output power, from the design's table.
 
@@ -113,6 +160,9 @@ class Circuit:
     uvlo: float = 0.0
     vf: float = 0.7  # datasheet forward voltage, for the initial-state estimate [V]
     vz: float = 0.0  # datasheet zener voltage, for the initial-state estimate [V]
+    n_turns: float = 1.0  # transformer turns ratio primary:secondary (1: none)
+    l_m: float = math.inf  # magnetizing inductance, primary side [H]
+    r_c: float = math.inf  # core-loss resistance, primary side [ohm]
 
     @property
     def period(self) -> float:
@@ -126,6 +176,25 @@ class Circuit:
     def has_c1(self) -> bool:
         return self.topology == "capacitive-dropper"
 
+    @property
+    def has_zener(self) -> bool:
+        return self.topology in ("capacitive-dropper", "resistive-dropper")
+
+    @property
+    def transformer(self) -> bool:
+        return self.topology == "mains-transformer"
+
+    def shunt_current(self, t):
+        """Current [A] of the branches on the source EMF (X capacitor and bleeder of an
+        SMPS; magnetizing and core-loss branch of a transformer); 0 otherwise."""
+        vs = self.vpk * np.sin(self.omega * t)
+        if self.topology == "rectifier-smps":
+            return self.c_x * self.vpk * self.omega * np.cos(self.omega * t) + vs / self.r_bleed
+        if self.transformer:
+            # L_m di/dt = Vpk sin(wt): the periodic solution is -Vpk/(w L_m) cos(wt)
+            return -self.vpk / (self.omega * self.l_m) * np.cos(self.omega * t) + vs / self.r_c
+        return 0.0 * vs
+
 
 def circuit_from_design(design, state: str, load_a: float | None = None) -> Circuit:
     """Translate a validated design and one of its states into :class:`Circuit`."""
@@ -136,7 +205,7 @@ def circuit_from_design(design, state: str, load_a: float | None = None) -> Circ
         bridge=parts.rectifier == "bridge",
         vpk=math.sqrt(2.0) * mains.voltage,
         omega=2.0 * math.pi * mains.frequency,
-        r_series=parts.series_resistance,
+        r_series=getattr(parts, "series_resistance", 0.0),
         r_source=mains.source_resistance,
         d_is=d_is,
         d_nvt=N_RECTIFIER * VT_V,
@@ -151,6 +220,20 @@ def circuit_from_design(design, state: str, load_a: float | None = None) -> Circ
         ckt.p_conv = converter_input_power(design, state)
         ckt.p_out = design.load_power_w(state)
         ckt.uvlo = out.undervoltage_lockout
+        return ckt
+    if design.topology == "mains-transformer":
+        if parts.leakage_inductance > 0.0:
+            raise NotImplementedError("the reference model has no leakage inductance")
+        tr = transformer_equivalent(design)
+        ckt.n_turns = tr["turns_ratio"]
+        ckt.r_series = tr["winding_resistance_ohm"]
+        ckt.l_m = tr["magnetizing_inductance_h"]
+        ckt.r_c = tr["core_resistance_ohm"]
+        ckt.c_out = parts.reservoir_capacitance
+        ckt.i_load = design.load_current_a(state) if load_a is None else load_a
+        ckt.i_q = out.quiescent_current
+        ckt.v_out = out.voltage
+        ckt.v_dropout = out.dropout
         return ckt
     if design.topology == "resistive-dropper":
         ckt.r_series = parts.series_resistance + parts.dropper_resistance
@@ -226,11 +309,13 @@ class Model:
         leaving into rectifier and zener) and its derivative d/dva [A/V] (< -1/R)."""
         ckt = self.ckt
         self.root_evals += 1
+        n = ckt.n_turns
         i_s = (vs - vc1 - va) / ckt.r_total
-        i_rect, d_rect, _, _ = rectifier_currents(ckt, va, vo)
-        out = i_s - i_rect
-        slope = -1.0 / ckt.r_total - d_rect
-        if ckt.topology != "rectifier-smps" and not ckt.bridge:
+        # the rectifier sees v_a / n; its current appears on the primary divided by n
+        i_rect, d_rect, _, _ = rectifier_currents(ckt, va / n, vo)
+        out = i_s - i_rect / n
+        slope = -1.0 / ckt.r_total - d_rect / (n * n)
+        if ckt.has_zener and not ckt.bridge:
             iz, dz = zener_current(ckt, va)
             out -= iz
             slope -= dz
@@ -280,9 +365,9 @@ class Model:
         va = self.node_voltage(t, vc1, vo)
         vs = ckt.vpk * math.sin(ckt.omega * t)
         i_s = (vs - vc1 - va) / ckt.r_total
-        _, _, i_dc, _ = rectifier_currents(ckt, va, vo)
+        _, _, i_dc, _ = rectifier_currents(ckt, va / ckt.n_turns, vo)
         i_out = i_dc - load_current(ckt, vo)
-        if ckt.topology != "rectifier-smps" and ckt.bridge:
+        if ckt.has_zener and ckt.bridge:
             i_out -= zener_current(ckt, vo)[0]
         dvo = i_out / ckt.c_out
         if ckt.has_c1:
@@ -308,6 +393,37 @@ class Model:
             out[:, j] = (np.asarray(self.rhs(t, yp)) - np.asarray(self.rhs(t, ym))) / (2.0 * d)
         return out
 
+    def _transformer_reservoir_estimate(self) -> float:
+        """Reservoir voltage [V] of a transformer supply at t = 0, estimated.
+
+        Secondary-referred, the source is E sin(wt) (E = Vpk/n) behind R' = R/n^2, less
+        the diode drops D (datasheet Vf each). With the reservoir held at V the diodes
+        conduct for theta in [alpha, pi - alpha], sin(alpha) = V/E, per conducting
+        half-cycle, and deliver on average
+        I(V) = k [2 E cos(alpha) - V (pi - 2 alpha)] / (2 pi R'), k = 1 (half-wave) or
+        2 (bridge); V solves I(V) = load current. At t = 0 the reservoir has fed the
+        load since the end of the last conduction, about T/4 (bridge) or 3T/4 ago.
+        """
+        ckt = self.ckt
+        n = ckt.n_turns
+        e = ckt.vpk / n - (2.0 if ckt.bridge else 1.0) * ckt.vf
+        r2 = ckt.r_total / (n * n)
+        k = 2.0 if ckt.bridge else 1.0
+        i_load = ckt.i_load + ckt.i_q
+
+        def excess(v):
+            alpha = math.asin(min(v / e, 1.0))
+            return (
+                k * (2 * e * math.cos(alpha) - v * (math.pi - 2 * alpha)) / (2 * math.pi * r2)
+                - i_load
+            )
+
+        if e <= 0.0:
+            return 0.0
+        v = e if excess(e) >= 0.0 else brentq(excess, 0.0, e, xtol=1e-9)
+        t_since = ckt.period / 4.0 if ckt.bridge else 0.75 * ckt.period
+        return max(v - 0.5 * i_load * t_since / ckt.c_out, 0.0)
+
     def initial_state(self) -> np.ndarray:
         """A physical estimate of the steady state at t = 0 (source voltage zero, rising).
 
@@ -319,6 +435,8 @@ class Model:
         v^2 = V0^2 - 2 P (T/4) / C.
         """
         ckt = self.ckt
+        if ckt.transformer:
+            return np.array([self._transformer_reservoir_estimate()])
         if ckt.topology == "rectifier-smps":
             v0 = ckt.vpk - (2.0 if ckt.bridge else 1.0) * ckt.vf
             t_since = ckt.period / 4.0 if ckt.bridge else 0.75 * ckt.period
@@ -392,9 +510,7 @@ def _sample_cycle(model: Model, sol, t0: float, n: int):
         vc1 = np.zeros(n)
         vo = y[0]
     i_s = (vs - vc1 - va) / ckt.r_total
-    i_line = i_s.copy()
-    if ckt.topology == "rectifier-smps":
-        i_line += ckt.c_x * ckt.vpk * ckt.omega * np.cos(ckt.omega * t) + vs / ckt.r_bleed
+    i_line = i_s + ckt.shunt_current(t)
     return t, vs, i_s, i_line, va, vc1, vo
 
 
@@ -479,7 +595,11 @@ def simulate_reference(
     ih = ih * np.exp(1j * 0.5 * np.pi * np.arange(ih.shape[0]))
 
     losses: dict[str, float] = {}
-    losses["series resistor"] = float(np.mean(ckt.r_series * i_s**2))
+    if ckt.transformer:
+        losses["transformer windings"] = float(np.mean(ckt.r_series * i_s**2))
+        losses["transformer core"] = float(np.mean(vs**2 / ckt.r_c))
+    else:
+        losses["series resistor"] = float(np.mean(ckt.r_series * i_s**2))
     p_src = float(np.mean(ckt.r_source * i_s**2))
     if ckt.topology == "rectifier-smps":
         losses["bleeder"] = float(np.mean(vs**2 / ckt.r_bleed))
@@ -488,9 +608,9 @@ def simulate_reference(
     p_rect = np.zeros(len(t))
     p_zener = np.zeros(len(t))
     for k in range(len(t)):
-        _, _, _, diodes = rectifier_currents(ckt, va[k], vo[k])
+        _, _, _, diodes = rectifier_currents(ckt, va[k] / ckt.n_turns, vo[k])
         p_rect[k] = sum(v * i for v, i in diodes)
-        if ckt.topology != "rectifier-smps":
+        if ckt.has_zener:
             vz_node = vo[k] if ckt.bridge else va[k]
             p_zener[k] = vz_node * zener_current(ckt, vz_node)[0]
     losses["rectifier"] = float(np.mean(p_rect))
@@ -500,7 +620,8 @@ def simulate_reference(
         delivered = p_conv * ckt.p_out / ckt.p_conv if ckt.p_conv > 0 else 0.0
         losses["converter"] = p_conv - delivered
     else:
-        losses["zener"] = float(np.mean(p_zener))
+        if ckt.has_zener:
+            losses["zener"] = float(np.mean(p_zener))
         v_reg = np.minimum(ckt.v_out, np.maximum(vo - ckt.v_dropout, 0.0))
         delivered = float(np.mean(v_reg * ckt.i_load))
         losses["regulator (pass element)"] = float(np.mean((vo - v_reg) * ckt.i_load))
@@ -609,8 +730,36 @@ DESIGN_TABLES: dict[str, dict] = {
 }
 
 
+def example_table(name: str) -> dict:
+    """The parsed table of a bundled example file (``examples/<name>.toml``)."""
+    import tomllib
+
+    from fleetpower._resources import examples_dir
+
+    return tomllib.loads((examples_dir() / f"{name}.toml").read_text(encoding="utf-8"))
+
+
+#: the shipped 230 V / 50 Hz, 1.5 VA transformer example (bridge), and a half-wave variant
+#: of it (which draws a DC current from the mains through the ideal transformer)
+TRANSFORMER_EXAMPLE = "desk-sensor-transformer-230"
+
+
+def _transformer_table(key: str) -> dict:
+    table = example_table(TRANSFORMER_EXAMPLE)
+    if key == "transformer-half-wave":
+        table["name"] = "reference: 1.5 VA transformer, half-wave"
+        table["parts"]["rectifier"] = "half-wave"
+        table["states"] = {"active": table["states"]["active"]}
+    return table
+
+
+TRANSFORMER_KEYS = ("transformer-bridge", "transformer-half-wave")
+
+
 def design(key: str):
-    """A validated :class:`fleetpower.inputs.Design` of :data:`DESIGN_TABLES`."""
+    """A validated :class:`fleetpower.inputs.Design` of :data:`DESIGN_TABLES` (or of
+    :data:`TRANSFORMER_KEYS`, built from the bundled transformer example)."""
     from fleetpower.inputs import design_from_dict
 
-    return design_from_dict(DESIGN_TABLES[key], file=f"<reference {key}>")
+    table = _transformer_table(key) if key in TRANSFORMER_KEYS else DESIGN_TABLES[key]
+    return design_from_dict(table, file=f"<reference {key}>")

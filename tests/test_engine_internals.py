@@ -81,39 +81,88 @@ def test_batch_equals_one_at_a_time():
 
 def _random_design(rng, k):
     """A plausible random design (seeded): the parameter ranges practitioners use."""
-    topo = str(rng.choice(["capacitive-dropper", "resistive-dropper", "rectifier-smps"]))
+    topo = str(
+        rng.choice(
+            ["capacitive-dropper", "resistive-dropper", "rectifier-smps", "mains-transformer"]
+        )
+    )
     v, f = (120, 60) if rng.random() < 0.5 else (230, 50)
     rect = str(rng.choice(["half-wave", "bridge"]))
     vz = float(rng.uniform(5.6, 24))
-    lin = dict(voltage=f"{rng.uniform(2, vz - 2.5):.2f} V",
-               quiescent_current=f"{rng.uniform(0, 8):.2f} mA",
-               dropout=f"{rng.uniform(0.2, 2):.2f} V")
+    lin = dict(
+        voltage=f"{rng.uniform(2, vz - 2.5):.2f} V",
+        quiescent_current=f"{rng.uniform(0, 8):.2f} mA",
+        dropout=f"{rng.uniform(0.2, 2):.2f} V",
+    )
     if topo == "capacitive-dropper":
-        parts = dict(series_capacitance=f"{rng.uniform(0.1, 5):.3f} uF",
-                     series_resistance=f"{rng.uniform(5, 200):.1f} ohm",
-                     bleeder_resistance=f"{rng.uniform(0.1, 2):.2f} Mohm",
-                     zener_voltage=f"{vz:.2f} V", rectifier=rect,
-                     reservoir_capacitance=f"{rng.uniform(10, 2200):.0f} uF")
+        parts = dict(
+            series_capacitance=f"{rng.uniform(0.1, 5):.3f} uF",
+            series_resistance=f"{rng.uniform(5, 200):.1f} ohm",
+            bleeder_resistance=f"{rng.uniform(0.1, 2):.2f} Mohm",
+            zener_voltage=f"{vz:.2f} V",
+            rectifier=rect,
+            reservoir_capacitance=f"{rng.uniform(10, 2200):.0f} uF",
+        )
         out, load = lin, f"{rng.uniform(0, 120):.2f} mA"
     elif topo == "resistive-dropper":
-        parts = dict(dropper_resistance=f"{rng.uniform(2, 50):.2f} kohm",
-                     zener_voltage=f"{vz:.2f} V", rectifier=rect,
-                     reservoir_capacitance=f"{rng.uniform(10, 2200):.0f} uF")
+        parts = dict(
+            dropper_resistance=f"{rng.uniform(2, 50):.2f} kohm",
+            zener_voltage=f"{vz:.2f} V",
+            rectifier=rect,
+            reservoir_capacitance=f"{rng.uniform(10, 2200):.0f} uF",
+        )
         out, load = lin, f"{rng.uniform(0, 30):.2f} mA"
+    elif topo == "mains-transformer":
+        # small 50/60 Hz mains transformers (common practice, no source): 6-24 V open
+        # circuit, 0.5-20 VA, 5-30 % regulation, core loss 2-20 % of the rating, no-load
+        # current given (1.5-5 x the core-loss current) or left to the default, leakage
+        # none or a few hundred mH referred to the primary
+        v2 = float(rng.uniform(6, 24))
+        va = float(rng.uniform(0.5, 20))
+        parts = dict(
+            secondary_voltage=f"{v2:.2f} V",
+            rated_power=f"{va:.2f} W",
+            regulation_pct=float(rng.uniform(5, 30)),
+            no_load_power=f"{rng.uniform(0.02, 0.2) * va:.4f} W",
+            rectifier=rect,
+            reservoir_capacitance=f"{rng.uniform(100, 4700):.0f} uF",
+        )
+        if rng.random() < 0.5:
+            p0 = float(parts["no_load_power"].split()[0])
+            parts["no_load_current"] = f"{rng.uniform(1.5, 5) * p0 / v * 1e3:.4f} mA"
+        if rng.random() < 0.5:
+            parts["leakage_inductance"] = f"{rng.uniform(100, 500):.0f} mH"
+        out = dict(
+            voltage=f"{rng.uniform(2, 1.414 * v2 - 3):.2f} V",
+            quiescent_current=f"{rng.uniform(0, 8):.2f} mA",
+            dropout=f"{rng.uniform(0.2, 2):.2f} V",
+        )
+        load = f"{rng.uniform(0, 1) * va / v2 * 1e3:.2f} mA"
     else:
         pr = float(rng.uniform(1, 60))
-        parts = dict(x_capacitance=f"{rng.uniform(10, 470):.0f} nF",
-                     bleeder_resistance=f"{rng.uniform(0.3, 3):.2f} Mohm",
-                     series_resistance=f"{rng.uniform(1, 47):.1f} ohm",
-                     bulk_capacitance=f"{rng.uniform(2, 100):.1f} uF", rectifier=rect)
-        out = dict(voltage="12 V", rated_power=f"{pr:.2f} W",
-                   no_load_input_power=f"{rng.uniform(0.02, 0.3):.3f} W",
-                   efficiency=[[0.1, 0.6], [0.5, 0.8], [1.0, 0.85]],
-                   undervoltage_lockout=f"{rng.uniform(0.2, 0.7) * v * 1.414:.0f} V")
+        parts = dict(
+            x_capacitance=f"{rng.uniform(10, 470):.0f} nF",
+            bleeder_resistance=f"{rng.uniform(0.3, 3):.2f} Mohm",
+            series_resistance=f"{rng.uniform(1, 47):.1f} ohm",
+            bulk_capacitance=f"{rng.uniform(2, 100):.1f} uF",
+            rectifier=rect,
+        )
+        out = dict(
+            voltage="12 V",
+            rated_power=f"{pr:.2f} W",
+            no_load_input_power=f"{rng.uniform(0.02, 0.3):.3f} W",
+            efficiency=[[0.1, 0.6], [0.5, 0.8], [1.0, 0.85]],
+            undervoltage_lockout=f"{rng.uniform(0.2, 0.7) * v * 1.414:.0f} V",
+        )
         load = f"{rng.uniform(0, 1.3) * pr:.3f} W"
-    return dict(name=f"random {k}", topology=topo,
-                mains=dict(voltage=f"{v} V", frequency=f"{f} Hz"),
-                parts=parts, output=out, states=dict(s=load))
+    return dict(
+        name=f"random {k}",
+        topology=topo,
+        mains=dict(voltage=f"{v} V", frequency=f"{f} Hz"),
+        parts=parts,
+        output=out,
+        states=dict(s=load),
+    )
 
 
 def test_random_designs_converge_and_conserve_energy():

@@ -18,6 +18,8 @@ import reference_circuits as rc
 import tolerances as tol
 
 from fleetpower import supply
+from fleetpower.devices import diode_saturation_current_a
+from fleetpower.inputs import design_from_dict
 
 CASES = [
     ("dropper-half-wave", "active"),
@@ -27,6 +29,9 @@ CASES = [
     ("resistive-half-wave", "active"),
     ("smps-bridge", "active"),
     ("smps-bridge", "idle"),
+    ("transformer-bridge", "active"),
+    ("transformer-bridge", "idle"),
+    ("transformer-half-wave", "active"),
 ]
 IDS = [f"{k}/{s}" for k, s in CASES]
 
@@ -172,3 +177,100 @@ def test_half_wave_deliverable_current_bounds():
     load = d.load_current_a("active")
     assert ref.v_o_v.min() > out.voltage + out.dropout  # the reference regulates 20 mA
     assert simulated >= load
+
+
+# ---------------------------------------------------------------------------------------
+# mains transformer
+# ---------------------------------------------------------------------------------------
+def test_transformer_equivalent_circuit_from_datasheet():
+    """The reference's own derivation of the equivalent circuit equals the engine's.
+
+    Approximate equivalent circuit referred to the primary, values from the open-circuit
+    figures and the regulation (Fitzgerald, Kingsley & Umans, Electric Machinery, ch. 2).
+    By hand for the example (230 V, 50 Hz, 9 V, 1.5 VA, 25 %, 0.45 W, 6 mA):
+    n = 230 / 9 = 25.556; R_w = 0.25 x 230^2 / 1.5 = 8816.7 ohm;
+    R_c = 230^2 / 0.45 = 117 556 ohm; I_c = 0.45 / 230 = 1.9565 mA,
+    I_m = sqrt(6^2 - 1.9565^2) mA = sqrt(32.172) mA = 5.6720 mA,
+    L_m = 230 / (2 pi 50 x 5.6720 mA) = 129.07 H.
+    """
+    d = design("transformer-bridge")
+    mine = rc.transformer_equivalent(d)
+    assert mine == pytest.approx(supply.transformer_model(d), rel=1e-12)
+    hand = {
+        "turns_ratio": 25.556,
+        "winding_resistance_ohm": 8816.7,
+        "core_resistance_ohm": 117556.0,
+        "magnetizing_inductance_h": 129.07,
+    }
+    for k, v in hand.items():  # the hand figures are rounded to 5 significant digits
+        assert mine[k] == pytest.approx(v, rel=1e-4), k
+    # without a no-load current the format's default (magnetizing current 3 x the
+    # core-loss current) is used by both
+    table = rc.example_table(rc.TRANSFORMER_EXAMPLE)
+    del table["parts"]["no_load_current"]
+    d2 = design_from_dict(table)
+    assert rc.transformer_equivalent(d2) == pytest.approx(supply.transformer_model(d2), rel=1e-12)
+    # 230 / (2 pi 50 x 3 x 1.9565 mA) = 124.72 H (by hand)
+    assert rc.transformer_equivalent(d2)["magnetizing_inductance_h"] == pytest.approx(
+        124.72, rel=1e-4
+    )
+
+
+#: relative tolerance of steady-state charge balances the engine enforces exactly (its
+#: periodicity residual is ~1e-9; the regulator's smooth turn-on tanh(v_o / 0.1 V) is 1
+#: to 1e-80 at a 9 V reservoir): common practice, no source
+REL_CHARGE = 1e-4
+
+
+def test_half_wave_transformer_draws_dc():
+    # Through the ideal transformer of the model (no saturation) a half-wave rectifier
+    # draws a DC current from the mains. In steady state the reservoir's mean current is
+    # zero, so the diode's mean current is the regulator's constant I_load + I_q and the
+    # primary's is that / n; the magnetizing (cos) and core-loss (sin) currents average
+    # to zero. By hand: (18 + 3) mA / (230 / 9) = 0.8217 mA, positive (the diode conducts
+    # on the positive half-cycle; consumer sign).
+    eng = engine("transformer-half-wave", "active")
+    ref = reference("transformer-half-wave", "active")
+    assert ref.v_o_v.min() > 5.0 + 1.5  # in regulation, so the load is the constant one
+    assert eng.pq.i_dc_a == pytest.approx(21e-3 / (230 / 9), rel=REL_CHARGE)
+    assert ref.i_dc_a == pytest.approx(21e-3 / (230 / 9), rel=REL_CHARGE)
+    assert abs(eng.pq.i_dc_a - ref.i_dc_a) < tol.HARMONIC_OF_I1 * ref.i1_rms_a
+    assert eng.pq.i_dc_a > 0.01 * eng.pq.i_rms_a  # not negligible
+    # a bridge conducts symmetrically in both half-cycles: no DC (only rounding and the
+    # diodes' nA leakage; 1e-4 of the fundamental is far above both)
+    for state in ("active", "idle"):
+        assert abs(engine("transformer-bridge", state).pq.i_dc_a) < 1e-4 * ref.i1_rms_a
+        assert abs(reference("transformer-bridge", state).i_dc_a) < 1e-4 * ref.i1_rms_a
+
+
+def test_transformer_no_load_hand_check():
+    """The example with no load and no quiescent current draws its no-load figures.
+
+    By hand: the core loss is V^2 / R_c = 230^2 / (230^2 / 0.45 W) = 0.45 W = P0 by
+    construction; the rest is the rectifier's, with the reservoir at the secondary crest
+    its diodes pass only their leakage, of the order of 4 Is x Vpk2 = 4 x 5.3 nA x
+    12.7 V = 2.7e-7 W (Is of a 0.7 V / 20 mA diode), allowed 10 times. The line current
+    is then the magnetizing and core-loss currents, in quadrature: the magnetizing part
+    (the fundamental's quadrature component, lagging) has rms
+    sqrt(I0^2 - (P0/V)^2) = sqrt(6^2 - 1.9565^2) mA = 5.6720 mA, and the whole line
+    current the datasheet no-load current I0 = 6 mA. (Fitzgerald, Kingsley & Umans,
+    Electric Machinery, ch. 2: open-circuit test.)
+    """
+    table = rc.example_table(rc.TRANSFORMER_EXAMPLE)
+    table["output"]["quiescent_current"] = "0 mA"
+    table["states"] = {"off": "0 mA"}
+    table["rated_state"] = "off"
+    d = design_from_dict(table)
+    (eng,) = supply.simulate(d)
+    parts, v = d.parts, d.mains.voltage
+    assert parts.no_load_power == 0.45 and v == 230.0  # the figures of the hand check
+    i_s = diode_saturation_current_a(parts.diode.forward_voltage, parts.diode.forward_test_current)
+    remainder = 10 * 4 * i_s * math.sqrt(2.0) * parts.secondary_voltage
+    assert 0.45 <= eng.pq.p_w < 0.45 + remainder
+    assert eng.losses_w["transformer core"] == pytest.approx(0.45, rel=1e-9)
+    i_mag = -eng.pq.i_h_a[1].imag
+    assert i_mag == pytest.approx(5.6720e-3, rel=1e-4)  # hand figure, 5 digits
+    assert i_mag == pytest.approx(
+        math.sqrt(parts.no_load_current**2 - (parts.no_load_power / v) ** 2), rel=1e-6
+    )
+    assert eng.pq.i_rms_a == pytest.approx(parts.no_load_current, rel=1e-6)
