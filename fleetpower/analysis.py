@@ -53,6 +53,24 @@ def phasors(x: np.ndarray) -> np.ndarray:
     return out
 
 
+def phasors_vs_voltage(v_v: np.ndarray, i_a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Voltage and current phasors of every order, referred to the voltage fundamental.
+
+    Order h is rotated by ``-h * arg V_1``, the convention of this module (a leading
+    fundamental current then has a positive angle).
+
+    Returns
+    -------
+    v_h_v, i_h_a : ndarray of complex, shape (n // 2 + 1,)
+        Rms phasors [V], [A]; index = harmonic order.
+    """
+    vh = phasors(v_v)
+    ih = phasors(i_a)
+    ref = np.angle(vh[1]) if abs(vh[1]) > 0 else 0.0
+    rot = np.exp(-1j * ref * np.arange(vh.shape[-1]))
+    return vh * rot, ih * rot
+
+
 @dataclass(frozen=True)
 class PowerQuality:
     """IEEE 1459 quantities of one voltage/current pair (all rms values).
@@ -188,12 +206,8 @@ def power_quality(v_v: np.ndarray, i_a: np.ndarray) -> PowerQuality:
         raise ValueError("v_v and i_a must be 1-D arrays of equal length")
     if not (np.all(np.isfinite(v)) and np.all(np.isfinite(i))):
         raise ValueError("voltage or current samples contain NaN or infinity")
-    vh = phasors(v)[: H_MAX + 1]
-    ih = phasors(i)[: H_MAX + 1]
-    ref = np.angle(vh[1]) if abs(vh[1]) > 0 else 0.0
-    rot = np.exp(-1j * ref * np.arange(vh.shape[0]))
-    vh = vh * rot
-    ih = ih * rot
+    vh, ih = phasors_vs_voltage(v, i)
+    vh, ih = vh[: H_MAX + 1], ih[: H_MAX + 1]
     v_rms = float(np.sqrt(np.mean(v * v)))
     i_rms = float(np.sqrt(np.mean(i * i)))
     i_peak = float(np.max(np.abs(i)))

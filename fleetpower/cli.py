@@ -93,11 +93,12 @@ def cmd_limits(args) -> int:
     return 0
 
 
-def _progress_printer():
+def _progress_printer(what: str = "simulated"):
+    """A progress callback printing to a terminal's stderr (None when not a terminal)."""
     err = Console(stderr=True)
 
     def show(done, total, name):
-        err.print(f"[dim]simulated {done}/{total}: {name}[/dim]")
+        err.print(f"[dim]{what} {done}/{total}: {name}[/dim]")
 
     return show if err.is_terminal else None
 
@@ -128,14 +129,8 @@ def cmd_compare(args) -> int:
         from .plots import require_matplotlib
 
         require_matplotlib()
-    err = Console(stderr=True)
-
-    def progress(done, total, name):
-        if err.is_terminal:
-            err.print(f"[dim]candidate {done}/{total}: {name}[/dim]")
-
     cmp = run_compare(args.fleet, args.design, args.years, args.rate, args.escalation,
-                      progress=progress)
+                      progress=_progress_printer("candidate"))
     report = compare_to_dict(cmp)
     if args.csv:
         from pathlib import Path

@@ -29,7 +29,7 @@ import pandas as pd
 from . import aggregate as A
 from . import economics as E
 from . import limits as L
-from .analysis import H_MAX, phasors
+from .analysis import H_MAX, phasors_vs_voltage
 from .errors import InputError, suggest
 from .inputs import Design, Mains, load_design
 from .supply import simulate
@@ -432,9 +432,7 @@ def unit_catalogue(designs: dict[Path, Design], progress=None) -> dict[Path, dic
             res = simulate(d)
             _CATALOGUE_CACHE[key] = {
                 r.state: UnitFigures(d.name, r.state, r.pq.p_w, r.pq.q1_var, r.pq.s_va,
-                                     r.pq.i_rms_a, phasors(r.i_a) * np.exp(
-                                         -1j * np.angle(phasors(r.v_v)[1])
-                                         * np.arange(len(r.i_a) // 2 + 1)))
+                                     r.pq.i_rms_a, phasors_vs_voltage(r.v_v, r.i_a)[1])
                 for r in res
             }
         out[path] = _CATALOGUE_CACHE[key]

@@ -17,6 +17,7 @@ from rich.table import Table
 from rich.text import Text
 
 from .analysis import harmonic_table
+from .errors import FleetpowerError
 from .supply import StateResult, UnitAnalysis
 
 VERDICT_MARK = {
@@ -39,7 +40,8 @@ def _clean(x: Any) -> Any:
     if isinstance(x, (np.floating, float)):
         v = float(x)
         if not math.isfinite(v):
-            raise ValueError("refusing to report a non-finite number")
+            raise FleetpowerError("a reported figure came out NaN or infinite; "
+                                  "refusing to print it (please report this design)")
         return v
     if isinstance(x, (np.integer,)):
         return int(x)
