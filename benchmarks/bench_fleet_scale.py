@@ -32,7 +32,8 @@ REPO = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(REPO))
 
 import fleetpower.fleet as fleet_module  # noqa: E402
-from fleetpower.fleet import evaluate_fleet, load_fleet, unit_catalogue  # noqa: E402
+from fleetpower.fleet import evaluate_fleet, unit_catalogue  # noqa: E402
+from fleetpower.io.fleet_file import load_fleet  # noqa: E402
 
 EXAMPLES = REPO / "examples"
 N_GROUPS = 1000

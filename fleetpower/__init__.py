@@ -14,12 +14,12 @@ import importlib
 __version__ = "0.1.0"
 
 _EXPORTS = {
-    "load_design": "fleetpower.inputs",
-    "Design": "fleetpower.inputs",
+    "load_design": "fleetpower.io.design_file",
+    "Design": "fleetpower.io.design_file",
     "analyse_unit": "fleetpower.supply",
     "simulate": "fleetpower.supply",
     "power_quality": "fleetpower.analysis",
-    "load_fleet": "fleetpower.fleet",
+    "load_fleet": "fleetpower.io.fleet_file",
     "evaluate_fleet": "fleetpower.fleet",
     "compare": "fleetpower.compare",
     "unit_compliance": "fleetpower.compliance",

@@ -24,7 +24,7 @@ def _status(message: str):
 
 
 def cmd_unit(args) -> int:
-    from .inputs import load_design
+    from .io.design_file import load_design
     from .report import render_unit, unit_to_dict
     from .supply import analyse_unit
 
@@ -104,7 +104,9 @@ def _progress_printer(what: str = "simulated"):
 
 
 def cmd_fleet(args) -> int:
-    from .fleet import evaluate_fleet, load_fleet, write_atomic
+    from .fleet import evaluate_fleet
+    from .io.files import write_atomic
+    from .io.fleet_file import load_fleet
     from .report import fleet_to_dict, render_fleet
 
     spec = load_fleet(args.fleet)
@@ -122,7 +124,7 @@ def cmd_fleet(args) -> int:
 def cmd_compare(args) -> int:
     from .compare import compare as run_compare
     from .compare import comparison_table
-    from .fleet import write_atomic
+    from .io.files import write_atomic
     from .report import compare_markdown, compare_to_dict, render_compare
 
     if args.plots:

@@ -17,8 +17,9 @@ import pandas as pd
 from . import economics as E
 from .compliance import lightest_state, rated_state, unit_compliance
 from .errors import InputError
-from .fleet import FleetResult, FleetSpec, evaluate_fleet, load_fleet, unit_catalogue
-from .inputs import Design, load_design
+from .fleet import FleetResult, evaluate_fleet, unit_catalogue
+from .io.design_file import Design, load_design
+from .io.fleet_file import FleetSpec, load_fleet
 from .supply import UnitAnalysis, analyse_unit
 
 DEFAULT_YEARS = 10

@@ -13,7 +13,7 @@ from dataclasses import asdict
 import numpy as np
 
 from . import limits as L
-from .inputs import ConverterOutput, Design
+from .io.design_file import ConverterOutput, Design
 from .supply import STRESS_MAINS_FACTOR, UnitAnalysis, simulate_cases
 
 #: load fractions of the average-active-efficiency test (EU 2019/1782, US Level VI)

@@ -1,6 +1,6 @@
 """One supply: from a validated design to waveforms, power quality, losses and stresses.
 
-Data flows one way: :class:`~fleetpower.inputs.Design` -> parameter rows
+Data flows one way: :class:`~fleetpower.io.design_file.Design` -> parameter rows
 (:func:`circuit_rows`) -> :func:`fleetpower.solver.solve_periodic` -> per-state
 :class:`StateResult` (waveform, :class:`~fleetpower.analysis.PowerQuality`, loss budget)
 -> :class:`UnitAnalysis` with stresses and warnings.
@@ -18,7 +18,7 @@ from . import circuits as c
 from .analysis import PowerQuality, power_quality
 from .devices import N_RECTIFIER, VT_V, diode_saturation_current_a, zener_knee
 from .errors import InputError, suggest
-from .inputs import ConverterOutput, Design
+from .io.design_file import ConverterOutput, Design
 from .limits import load_limit_set
 from .solver import DEFAULT_SAMPLES_PER_CYCLE, solve_periodic
 

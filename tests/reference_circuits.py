@@ -757,9 +757,9 @@ TRANSFORMER_KEYS = ("transformer-bridge", "transformer-half-wave")
 
 
 def design(key: str):
-    """A validated :class:`fleetpower.inputs.Design` of :data:`DESIGN_TABLES` (or of
+    """A validated :class:`fleetpower.io.design_file.Design` of :data:`DESIGN_TABLES` (or of
     :data:`TRANSFORMER_KEYS`, built from the bundled transformer example)."""
-    from fleetpower.inputs import design_from_dict
+    from fleetpower.io.design_file import design_from_dict
 
     table = _transformer_table(key) if key in TRANSFORMER_KEYS else DESIGN_TABLES[key]
     return design_from_dict(table, file=f"<reference {key}>")

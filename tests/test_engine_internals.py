@@ -18,7 +18,7 @@ from tolerances import BALANCE_PCT
 from fleetpower import circuits as c
 from fleetpower import devices as dv
 from fleetpower._resources import examples_dir
-from fleetpower.inputs import load_design
+from fleetpower.io.design_file import load_design
 from fleetpower.solver import jacobian_fd, solve_periodic
 from fleetpower.supply import circuit_rows, simulate
 
@@ -169,7 +169,7 @@ def test_random_designs_converge_and_conserve_energy():
     # Invariant (conservation of energy over a period, any circuit): mean input power =
     # delivered + all losses + source resistance, storage averaging to zero. Checked on
     # 120 seeded random designs, overloaded ones included, solved as one batch.
-    from fleetpower.inputs import design_from_dict
+    from fleetpower.io.design_file import design_from_dict
 
     rng = np.random.default_rng(20261202)
     rows, x0s = [], []

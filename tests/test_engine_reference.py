@@ -19,7 +19,7 @@ import tolerances as tol
 
 from fleetpower import supply
 from fleetpower.devices import diode_saturation_current_a
-from fleetpower.inputs import design_from_dict
+from fleetpower.io.design_file import design_from_dict
 
 CASES = [
     ("dropper-half-wave", "active"),

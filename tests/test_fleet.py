@@ -17,7 +17,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from tolerances import CANCEL_REL, REL_EXACT, REL_HAND_Q, REL_PARSEVAL
 
-from fleetpower.fleet import evaluate_fleet, load_fleet, unit_catalogue
+from fleetpower.fleet import evaluate_fleet, unit_catalogue
+from fleetpower.io.fleet_file import load_fleet
 from fleetpower.report import fleet_to_dict
 
 # per-quantity tolerances (relative unless named *_ABS)

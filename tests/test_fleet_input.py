@@ -394,7 +394,7 @@ def test_csv_replaces_an_existing_file_or_leaves_it_whole(cli, folder, monkeypat
     def refuse(src, dst):
         raise PermissionError(13, "Permission denied")
 
-    monkeypatch.setattr("fleetpower.fleet.os.replace", refuse)
+    monkeypatch.setattr("fleetpower.io.files.os.replace", refuse)
     rc, _, err = cli("fleet", path, "--csv", out)
     assert rc == EXIT_INPUT
     assert err.count("\n") == 1 and err.startswith(f"fleetpower: {out}: cannot write")

@@ -15,7 +15,7 @@ from hypothesis import strategies as st
 
 from fleetpower.cli import main
 from fleetpower.errors import InputError
-from fleetpower.inputs import design_from_dict, load_design
+from fleetpower.io.design_file import design_from_dict, load_design
 from fleetpower.units import parse_quantity
 
 

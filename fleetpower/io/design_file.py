@@ -3,23 +3,22 @@
 Every physical value is a string with its unit (``"3.3 uF"``, ``"120 V"``); pint checks
 its dimension and pydantic checks structure, unknown keys and ranges. Any problem is
 raised as :class:`fleetpower.errors.InputError` naming the file and the key.
+
+Owns: the design-file schema (:class:`Design` and its parts and output models),
+:func:`load_design`, :func:`design_from_dict`, :func:`parse_load`. May import ``errors``,
+``units`` and the rest of ``io``; nothing that simulates or evaluates.
 """
 
 from __future__ import annotations
 
-import sys
 from pathlib import Path
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError
 
-from .errors import InputError, suggest
-from .units import parse_quantity
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from ..errors import InputError, suggest
+from ..units import parse_quantity
+from .toml import read_toml
 
 TOPOLOGIES = ("capacitive-dropper", "resistive-dropper", "rectifier-smps", "mains-transformer")
 
@@ -356,15 +355,4 @@ def load_design(path: str | Path) -> Design:
         of the wrong dimension, and zero or negative values.
     """
     path = Path(path)
-    file = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError(file, "", "file not found") from None
-    except OSError as exc:
-        raise InputError(file, "", f"cannot read: {exc.strerror}") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(file, "", f"malformed TOML: {exc}") from None
-    return design_from_dict(data, file)
+    return design_from_dict(read_toml(path), str(path))

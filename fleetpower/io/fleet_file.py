@@ -1,0 +1,380 @@
+"""Fleet files: the fleet TOML file and its inventory CSV, validated into a :class:`FleetSpec`.
+
+Owns: the fleet-file format (site, tariff, groups, inventory rows, economics) and the
+daily occupancy of each group's states. Each design file is read once and put on the
+site's mains. Any problem is an :class:`fleetpower.errors.InputError` naming the file and
+the key (or CSV row and column).
+
+May import ``errors``, ``units``, the rest of ``io`` and the pure mathematics of ``pq``;
+nothing that simulates or evaluates.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .. import aggregate as A
+from ..errors import InputError, suggest
+from ..units import parse_quantity
+from .design_file import Design, Mains, load_design
+from .toml import read_toml
+
+SYSTEMS = {"single-phase": "single", "split-phase": "split", "three-phase-wye": "wye"}
+SUMMATIONS = ("phasor", "iec61000-3-6")
+HOURS = 24
+
+
+# ----------------------------------------------------------------------------------
+# specification
+# ----------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Site:
+    """The supply the fleet hangs on."""
+
+    system: str  # "single" | "split" | "wye" (aggregate's names)
+    system_label: str
+    v_ln_v: float
+    f_hz: float
+    isc_a: float | None = None
+    isc_source: str = ""
+    demand_current_a: float | None = None
+    phase_rating_a: float | None = None
+    neutral_rating_a: float | None = None
+    currency: str = ""
+
+    @property
+    def phases(self) -> list[str]:
+        return list(A.system_phases(self.system))
+
+
+@dataclass(frozen=True)
+class Tariff:
+    """Prices; all optional except the energy price."""
+
+    energy_price_by_hour: np.ndarray  # per kWh, 24 values
+    demand_price: float = 0.0  # per kW (or kVA) per month
+    demand_basis: str = "kW"
+    reactive_price: float = 0.0  # per kvarh
+    reactive_billing: str = "magnitude"
+    co2_kg_per_kwh: float = 0.0
+
+
+@dataclass(frozen=True)
+class Group:
+    """Units of one design on one phase (or spread over all) with one daily profile."""
+
+    name: str
+    design_path: Path
+    count: int
+    phase: str  # a phase name or "balanced"
+    occupancy: np.ndarray  # (24, n_states): fraction of the group's units in each state
+    peak_occupancy: np.ndarray | None  # (n_states,) coincident case from diversity
+    states: tuple[str, ...]
+    where: str  # for messages
+
+
+@dataclass(frozen=True)
+class FleetSpec:
+    name: str
+    file: str
+    site: Site
+    tariff: Tariff
+    groups: list[Group]
+    summation: str = "phasor"
+    designs: dict[Path, Design] = field(default_factory=dict)
+    nominal_mains: dict[Path, Mains] = field(default_factory=dict)
+    economics: dict = field(default_factory=dict)
+
+
+_SITE_KEYS = {"system", "voltage", "frequency", "short_circuit_current", "transformer_rating",
+              "transformer_impedance_pct", "demand_current", "phase_conductor_rating",
+              "neutral_conductor_rating", "currency"}
+_TARIFF_KEYS = {"energy_price", "energy_price_by_hour", "demand_price", "demand_basis",
+                "reactive_price", "reactive_billing", "co2_kg_per_kwh"}
+_GROUP_KEYS = {"name", "design", "count", "phase", "hours", "profile", "diversity"}
+_TOP_KEYS = {"name", "site", "tariff", "group", "inventory", "summation", "economics"}
+_ECON_KEYS = {"service_life_years", "discount_rate", "energy_escalation"}
+
+
+def _unknown(file, where, data, known):
+    for k in data:
+        if k not in known:
+            raise InputError(file, f"{where}{k}", f"unknown key{suggest(k, known)}")
+
+
+def _number(file, key, value, *, lo=None, positive=False, integer=False):
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise InputError(file, key, f"expected a number, got {value!r}")
+    if integer and (not float(value).is_integer()):
+        raise InputError(file, key, f"must be a whole number, got {value!r}")
+    if positive and value <= 0:
+        raise InputError(file, key, f"must be greater than zero, got {value!r}")
+    if lo is not None and value < lo:
+        raise InputError(file, key, f"must be at least {lo}, got {value!r}")
+    return float(value)
+
+
+def _site(file: str, d: Any) -> Site:
+    if not isinstance(d, dict):
+        raise InputError(file, "site", "expected a table")
+    _unknown(file, "site.", d, _SITE_KEYS)
+    for k in ("system", "voltage", "frequency"):
+        if k not in d:
+            raise InputError(file, f"site.{k}", "missing key")
+    if d["system"] not in SYSTEMS:
+        raise InputError(file, "site.system", f"unknown system {d['system']!r}"
+                         f"{suggest(str(d['system']), SYSTEMS)}; choose one of "
+                         f"{', '.join(SYSTEMS)}")
+    system = SYSTEMS[d["system"]]
+
+    def q(key, dim):
+        if key not in d:
+            return None
+        v = parse_quantity(d[key], dim, file=file, key=f"site.{key}")
+        if v <= 0:
+            raise InputError(file, f"site.{key}", "must be greater than zero")
+        return v
+
+    v_ln = q("voltage", "voltage")
+    f = q("frequency", "frequency")
+    isc = q("short_circuit_current", "current")
+    src = "given short-circuit current" if isc else ""
+    s_tr = q("transformer_rating", "power") if "transformer_rating" in d else None
+    if "transformer_rating" in d and isc is None:
+        z = d.get("transformer_impedance_pct")
+        if z is None:
+            raise InputError(file, "site.transformer_impedance_pct",
+                             "missing key (needed with transformer_rating)")
+        z = _number(file, "site.transformer_impedance_pct", z, positive=True) / 100.0
+        n_ph = {"single": 1, "split": 2, "wye": 3}[system]
+        isc = s_tr / (n_ph * v_ln * z)
+        src = f"transformer {s_tr / 1e3:.0f} kVA, {z * 100:.1f} % Z"
+    return Site(
+        system=system, system_label=d["system"], v_ln_v=v_ln, f_hz=f, isc_a=isc,
+        isc_source=src, demand_current_a=q("demand_current", "current"),
+        phase_rating_a=q("phase_conductor_rating", "current"),
+        neutral_rating_a=q("neutral_conductor_rating", "current"),
+        currency=str(d.get("currency", "")),
+    )
+
+
+def _tariff(file: str, d: Any) -> Tariff:
+    if not isinstance(d, dict):
+        raise InputError(file, "tariff", "expected a table")
+    _unknown(file, "tariff.", d, _TARIFF_KEYS)
+    if "energy_price_by_hour" in d:
+        prices = d["energy_price_by_hour"]
+        if not isinstance(prices, list) or len(prices) != HOURS:
+            raise InputError(file, "tariff.energy_price_by_hour", "needs 24 prices, one per hour")
+        arr = np.array([_number(file, f"tariff.energy_price_by_hour[{k}]", p, lo=0)
+                        for k, p in enumerate(prices)])
+    elif "energy_price" in d:
+        arr = np.full(HOURS, _number(file, "tariff.energy_price", d["energy_price"], lo=0))
+    else:
+        raise InputError(file, "tariff.energy_price", "missing key (or energy_price_by_hour)")
+    basis = d.get("demand_basis", "kW")
+    if basis not in ("kW", "kVA"):
+        raise InputError(file, "tariff.demand_basis", "must be \"kW\" or \"kVA\"")
+    billing = d.get("reactive_billing", "magnitude")
+    if billing not in ("magnitude", "lagging", "leading"):
+        raise InputError(file, "tariff.reactive_billing",
+                         "must be \"magnitude\", \"lagging\" or \"leading\"")
+    return Tariff(
+        energy_price_by_hour=arr,
+        demand_price=_number(file, "tariff.demand_price", d.get("demand_price", 0.0), lo=0),
+        demand_basis=basis,
+        reactive_price=_number(file, "tariff.reactive_price", d.get("reactive_price", 0.0), lo=0),
+        reactive_billing=billing,
+        co2_kg_per_kwh=_number(file, "tariff.co2_kg_per_kwh", d.get("co2_kg_per_kwh", 0.0), lo=0),
+    )
+
+
+def _occupancy(file, where, design: Design, hours, profile, diversity):
+    states = tuple(design.states)
+    light = states.index(min(states, key=design.load_current_a))
+    heavy = states.index(max(states, key=design.load_current_a))
+    occ = np.zeros((HOURS, len(states)))
+    peak = None
+    if (hours is None) == (profile is None):
+        raise InputError(file, f"{where}hours", "give either hours (per state) or profile "
+                         "(24 state names), not both or neither")
+    d = 1.0 if diversity is None else _number(file, f"{where}diversity", diversity)
+    if not 0.0 < d <= 1.0:
+        raise InputError(file, f"{where}diversity", "must be in (0, 1]")
+    if hours is not None:
+        if not isinstance(hours, dict) or not hours:
+            raise InputError(file, f"{where}hours", "expected a table such as "
+                             "{ active = 2, idle = 22 }")
+        total = 0.0
+        for s, h in hours.items():
+            if s not in design.states:
+                raise InputError(file, f"{where}hours.{s}", f"unknown state {s!r} of design "
+                                 f"'{design.name}'{suggest(s, design.states)}")
+            h = _number(file, f"{where}hours.{s}", h, lo=0)
+            occ[:, states.index(s)] = h / HOURS
+            total += h
+        if abs(total - HOURS) > 1e-9:
+            raise InputError(file, f"{where}hours", f"hours per day sum to {total:g}, not 24")
+        if diversity is not None:
+            peak = np.zeros(len(states))
+            peak[heavy] = d
+            peak[light] += 1.0 - d
+    else:
+        if not isinstance(profile, list) or len(profile) != HOURS:
+            raise InputError(file, f"{where}profile", "needs 24 state names, one per hour")
+        for t, s in enumerate(profile):
+            if s not in design.states:
+                raise InputError(file, f"{where}profile[{t}]", f"unknown state {s!r} of "
+                                 f"design '{design.name}'{suggest(str(s), design.states)}")
+            occ[t, states.index(s)] += d
+            occ[t, light] += 1.0 - d
+    return occ, peak, states
+
+
+def _design(file, where, ref, base: Path, site: Site, cache: dict) -> tuple[Path, Design]:
+    if not isinstance(ref, str) or not ref:
+        raise InputError(file, f"{where}design", "expected the path of a design file")
+    path = (base / ref).resolve()
+    if not path.is_file():
+        raise InputError(file, f"{where}design", f"design file not found: {ref}")
+    if path not in cache:
+        d = load_design(path)
+        site_mains = d.mains.model_copy(update={"voltage": site.v_ln_v, "frequency": site.f_hz})
+        cache[path] = d.model_copy(update={"mains": site_mains})
+        cache[(path, "nominal")] = d.mains
+    return path, cache[path]
+
+
+def _group(file, where, g: dict, base: Path, site: Site, cache: dict, index: int) -> Group:
+    _unknown(file, where, g, _GROUP_KEYS)
+    for k in ("design", "count", "phase"):
+        if k not in g:
+            raise InputError(file, f"{where}{k}", "missing key")
+    path, design = _design(file, where, g["design"], base, site, cache)
+    count = _number(file, f"{where}count", g["count"], positive=True, integer=True)
+    phase = g["phase"]
+    allowed = site.phases + ["balanced"]
+    if phase not in allowed:
+        raise InputError(file, f"{where}phase", f"unknown phase {phase!r}"
+                         f"{suggest(str(phase), allowed)}; this {site.system_label} site has "
+                         f"{', '.join(allowed)}")
+    occ, peak, states = _occupancy(file, where, design, g.get("hours"), g.get("profile"),
+                                   g.get("diversity"))
+    name = str(g.get("name", f"group {index + 1}"))
+    return Group(name, path, int(count), phase, occ, peak, states, where.rstrip("."))
+
+
+def _parse_hours_cell(text: str):
+    out = {}
+    for part in str(text).replace(";", " ").split():
+        if "=" not in part:
+            raise ValueError(f"expected state=hours, got {part!r}")
+        s, h = part.split("=", 1)
+        out[s.strip()] = float(h)
+    return out
+
+
+def _inventory(file: str, ref: str, base: Path, site: Site, cache: dict, start: int):
+    path = (base / ref).resolve()
+    inv = str(path)
+    if not path.is_file():
+        raise InputError(file, "inventory", f"inventory file not found: {ref}")
+    try:
+        df = pd.read_csv(path, dtype=str, keep_default_na=False)
+    except Exception as exc:  # pandas raises several parser errors
+        raise InputError(inv, "", f"cannot read as CSV: {exc}") from None
+    required = {"design", "count", "phase"}
+    known = required | {"name", "hours", "profile", "diversity"}
+    for col in df.columns:
+        if col not in known:
+            raise InputError(inv, f"row 1, column {col}", f"unknown column{suggest(col, known)}")
+    for col in sorted(required - set(df.columns)):
+        raise InputError(inv, "row 1", f"missing column {col!r}")
+    groups = []
+    for k, row in enumerate(df.to_dict("records")):
+        where = f"row {k + 2}, column "
+        g: dict[str, Any] = {"design": row["design"], "phase": row["phase"]}
+        if row.get("name"):
+            g["name"] = row["name"]
+        try:
+            g["count"] = float(row["count"])
+        except ValueError:
+            raise InputError(inv, where + "count", f"not a number: {row['count']!r}") from None
+        if row.get("diversity"):
+            try:
+                g["diversity"] = float(row["diversity"])
+            except ValueError:
+                raise InputError(inv, where + "diversity",
+                                 f"not a number: {row['diversity']!r}") from None
+        if row.get("hours"):
+            try:
+                g["hours"] = _parse_hours_cell(row["hours"])
+            except ValueError as exc:
+                raise InputError(inv, where + "hours", str(exc)) from None
+        if row.get("profile"):
+            g["profile"] = row["profile"].split()
+        try:
+            groups.append(_group(inv, "", g, path.parent, site, cache, start + k))
+        except InputError as exc:
+            if exc.file != inv:  # a design file's own error already names its file and key
+                raise
+            col = exc.where.split(".")[0].split("[")[0] or "design"
+            raise InputError(inv, where + col, exc.message) from None
+    return groups
+
+
+def load_fleet(path: str | Path) -> FleetSpec:
+    """Read and validate a fleet file (and its inventory CSV and design files).
+
+    Raises
+    ------
+    InputError
+        Naming the file and the key (or CSV row and column) on any problem.
+    """
+    path = Path(path)
+    file = str(path)
+    data = read_toml(path)
+    _unknown(file, "", data, _TOP_KEYS)
+    for k in ("site", "tariff"):
+        if k not in data:
+            raise InputError(file, k, "missing key")
+    site = _site(file, data["site"])
+    tariff = _tariff(file, data["tariff"])
+    summation = data.get("summation", "phasor")
+    if summation not in SUMMATIONS:
+        raise InputError(file, "summation", f"must be one of {', '.join(SUMMATIONS)}")
+    cache: dict = {}
+    groups = []
+    raw = data.get("group", [])
+    if not isinstance(raw, list):
+        raise InputError(file, "group", "write groups as [[group]] tables")
+    for k, g in enumerate(raw):
+        if not isinstance(g, dict):
+            raise InputError(file, f"group[{k + 1}]", "expected a table")
+        groups.append(_group(file, f"group[{k + 1}].", g, path.parent, site, cache, k))
+    if "inventory" in data:
+        groups += _inventory(file, data["inventory"], path.parent, site, cache, len(groups))
+    if not groups:
+        raise InputError(file, "group", "the fleet has no groups (add [[group]] or inventory)")
+    designs = {k: v for k, v in cache.items() if isinstance(k, Path)}
+    nominal = {k[0]: v for k, v in cache.items() if isinstance(k, tuple)}
+    econ = data.get("economics", {})
+    if not isinstance(econ, dict):
+        raise InputError(file, "economics", "expected a table")
+    _unknown(file, "economics.", econ, _ECON_KEYS)
+    econ = {k: _number(file, f"economics.{k}", v, lo=0) for k, v in econ.items()}
+    if "service_life_years" in econ:
+        econ["service_life_years"] = _number(file, "economics.service_life_years",
+                                             econ["service_life_years"], positive=True,
+                                             integer=True)
+    return FleetSpec(str(data.get("name", path.stem)), file, site, tariff, groups, summation,
+                     designs, nominal, econ)
+
+
+__all__ = ["load_fleet", "FleetSpec", "Site", "Tariff", "Group", "SYSTEMS", "SUMMATIONS",
+           "HOURS"]
