@@ -4,7 +4,7 @@ Run from the repository root:  python benchmarks/bench_unit_solve.py
 
 Measures, in one process (numba warmed first):
   * fleetpower.supply.simulate(design, [state])  -- the whole per-state path;
-  * fleetpower.solver.solve_periodic on one row from fleetpower.supply.circuit_rows;
+  * fleetpower.engine.solver.solve_periodic on one row from fleetpower.supply.circuit_rows;
   * the same rows for a batch of 64 variants (per-variant cost);
   * tests/reference_circuits.simulate_reference (Radau, rtol 1e-9, from t = 0 until the
     line current repeats to 1e-5), which reaches the same accuracy as the engine: the
@@ -26,7 +26,8 @@ sys.path.insert(0, str(ROOT / "tests"))
 
 import reference_circuits as rc  # noqa: E402
 
-from fleetpower import circuits, solver, supply  # noqa: E402
+from fleetpower import supply  # noqa: E402
+from fleetpower.engine import layout, solver  # noqa: E402
 
 TARGET_MS = 20.0
 TARGET_RATIO = 20.0
@@ -73,7 +74,7 @@ def main() -> int:
             else:
                 pv, xv = supply.circuit_rows(design, state)
                 pv = pv.copy()
-                pv[circuits.P_PCONV] *= frac
+                pv[layout.param_index("p_converter_in_w")] *= frac
             rows.append(pv)
             x0s.append(xv)
         prm, xx = np.array(rows), np.array(x0s)

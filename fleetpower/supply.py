@@ -1,7 +1,7 @@
 """One supply: from a validated design to waveforms, power quality, losses and stresses.
 
 Data flows one way: :class:`~fleetpower.io.design_file.Design` -> parameter rows
-(:func:`circuit_rows`) -> :func:`fleetpower.solver.solve_periodic` -> per-state
+(:func:`circuit_rows`) -> :func:`fleetpower.engine.solver.solve_periodic` -> per-state
 :class:`StateResult` (waveform, :class:`~fleetpower.analysis.PowerQuality`, loss budget)
 -> :class:`UnitAnalysis` with stresses and warnings.
 """
@@ -14,13 +14,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import circuits as c
 from .analysis import PowerQuality, power_quality
-from .devices import N_RECTIFIER, VT_V, diode_saturation_current_a, zener_knee
+from .engine import layout as c
+from .engine.devices import N_RECTIFIER, VT_V, diode_saturation_current_a, zener_knee
+from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, solve_periodic
 from .errors import InputError, suggest
 from .io.design_file import ConverterOutput, Design
 from .limits import load_limit_set
-from .solver import DEFAULT_SAMPLES_PER_CYCLE, solve_periodic
 
 #: Mains factor at which stresses are assessed (+10 % mains, common practice, no source)
 STRESS_MAINS_FACTOR = 1.10
@@ -144,6 +144,7 @@ def circuit_rows(
     p[c.P_D_NVT] = nvt
     x0 = np.zeros(c.N_STATES)
     if topo == c.RECTIFIER_SMPS:
+        p[c.P_VO_MAX] = 1.05 * vpk
         p[c.P_RSER] = parts.series_resistance
         p[c.P_RB] = parts.bleeder_resistance
         p[c.P_CX] = parts.x_capacitance
@@ -169,6 +170,7 @@ def circuit_rows(
         p[c.P_LSRC] += parts.leakage_inductance
         p[c.P_LM] = tr["magnetizing_inductance_h"]
         p[c.P_RC] = tr["core_resistance_ohm"]
+        p[c.P_VO_MAX] = 1.05 * vpk / p[c.P_NTURNS]
         v_sec_pk = vpk / tr["turns_ratio"]
         drops = 2 * vf if parts.rectifier == "bridge" else vf
         x0[c.S_VO] = max(0.9 * v_sec_pk - drops, 0.0)
@@ -190,6 +192,11 @@ def circuit_rows(
     p[c.P_Z_VK], p[c.P_Z_S], p[c.P_Z_RZ] = vk, s, parts.zener_resistance
     p[c.P_ZF_IS] = p[c.P_D_IS]
     p[c.P_ZF_NVT] = nvt
+    # the zener's voltage at the largest current the series branch can pass
+    i_pk = vpk / max(p[c.P_RSER] + p[c.P_RSRC], 1e-3)
+    if topo == c.CAPACITIVE_DROPPER:
+        i_pk = min(i_pk, vpk * p[c.P_OMEGA] * p[c.P_C1])
+    p[c.P_VO_MAX] = min(p[c.P_Z_VK] + 2.0 + p[c.P_Z_RZ] * i_pk, 1.05 * vpk)
     if p[c.P_RECT] == c.HALF_WAVE:
         x0[c.S_VO] = parts.zener_voltage - vf
         x0[c.S_VC1] = -parts.zener_voltage

@@ -1,10 +1,10 @@
 """Brute-force reference model of fleetpower's circuits, for acceptance tests and benchmarks.
 
 Written from the physical description of the topologies (the docstrings of
-:mod:`fleetpower.circuits`, :mod:`fleetpower.devices` and, for the transformer, of
+:mod:`fleetpower.engine.circuits`, :mod:`fleetpower.engine.devices` and, for the transformer, of
 ``fleetpower.supply.transformer_model``), **not** from the engine's code:
-nothing here imports ``fleetpower.circuits``, ``fleetpower.solver`` or
-``fleetpower.supply``. Only the datasheet-to-model helpers of :mod:`fleetpower.devices`
+nothing here imports ``fleetpower.engine.circuits``, ``fleetpower.engine.solver`` or
+``fleetpower.supply``. Only the datasheet-to-model helpers of :mod:`fleetpower.engine.devices`
 (``diode_saturation_current_a``, ``zener_knee`` and the physical constants) are used,
 because they define what a datasheet figure means; the device currents themselves are
 written again below.
@@ -45,7 +45,7 @@ import numpy as np
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
-from fleetpower.devices import N_RECTIFIER, VT_V, diode_saturation_current_a, zener_knee
+from fleetpower.engine.devices import N_RECTIFIER, VT_V, diode_saturation_current_a, zener_knee
 
 #: Current above which the reference's Shockley exponential is continued by its tangent
 #: [A]. Only a bracket end of the root search can get there (it keeps exp() finite);

@@ -15,11 +15,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from tolerances import BALANCE_PCT
 
-from fleetpower import circuits as c
-from fleetpower import devices as dv
 from fleetpower._resources import examples_dir
+from fleetpower.engine import circuits as c
+from fleetpower.engine import devices as dv
+from fleetpower.engine import layout
+from fleetpower.engine.solver import jacobian_fd, solve_periodic
 from fleetpower.io.design_file import load_design
-from fleetpower.solver import jacobian_fd, solve_periodic
 from fleetpower.supply import circuit_rows, simulate
 
 EXAMPLES = sorted(p.name for p in examples_dir().glob("*.toml") if "fleet" not in p.name
@@ -53,12 +54,12 @@ def test_analytic_jacobian_matches_finite_differences(name, phase, dv_, di):
     design = load_design(examples_dir() / name)
     p, x0 = circuit_rows(design, next(iter(design.states)))
     x = x0 + np.array([dv_, dv_ * 0.5, dv_ + 1.0, di])
-    t = phase * 2 * math.pi / p[c.P_OMEGA]
+    t = phase * 2 * math.pi / p[layout.param_index("omega_rad_s")]
     f0 = np.empty(4)
     c.residual(x, t, p, f0)
     ja, jf = np.empty((4, 4)), np.empty((4, 4))
     c.jacobian(x, t, p, ja)
-    jacobian_fd(x, t, p, f0, jf, np.array([p[c.P_VPK]] * 3 + [1.0]))
+    jacobian_fd(x, t, p, f0, jf, np.array([p[layout.param_index("v_pk_v")]] * 3 + [1.0]))
     np.testing.assert_allclose(ja, jf, rtol=2e-4, atol=1e-6 * np.abs(jf).max())
 
 
@@ -68,7 +69,7 @@ def test_steady_state_is_periodic_and_reached_from_a_poor_guess():
     p, x0 = circuit_rows(design, "active")
     a = solve_periodic(p[None], x0[None])
     b = solve_periodic(p[None], np.array([[50.0, 0.0, 0.0, 0.0]]))
-    np.testing.assert_allclose(a.probes[0, :, 0], b.probes[0, :, 0], atol=1e-7)
+    np.testing.assert_allclose(a.probe("i_line_a")[0], b.probe("i_line_a")[0], atol=1e-7)
     assert a.periodic_residual[0] < 1e-9
 
 
@@ -180,11 +181,10 @@ def test_random_designs_converge_and_conserve_energy():
         x0s.append(x0)
     sol = solve_periodic(np.array(rows), np.array(x0s), raise_on_failure=False)
     assert sol.converged.all()
-    idx = {n: k for k, n in enumerate(c.PROBES)}
-    pr = sol.probes.mean(axis=1)
-    p_in = (sol.probes[:, :, idx["i_line_a"]] * sol.probes[:, :, idx["v_source_v"]]).mean(axis=1)
-    out = sum(pr[:, idx[k]] for k in c.LOSS_PROBES) + pr[:, idx["p_delivered_w"]] + \
-        pr[:, idx["p_source_resistance_w"]]
+    mean = {k: v.mean(axis=1) for k, v in layout.probe_table(sol.probes).items()}
+    p_in = (sol.probe("i_line_a") * sol.probe("v_source_v")).mean(axis=1)
+    out = sum(mean[k] for k in layout.LOSS_PROBES) + mean["p_delivered_w"] + \
+        mean["p_source_resistance_w"]
     np.testing.assert_allclose(out, p_in, rtol=BALANCE_PCT / 100)
     assert np.all(np.isfinite(sol.probes))
 

@@ -1,7 +1,7 @@
 """Acceptance of the steady-state engine against an independent brute-force model.
 
 The engine (shooting-Newton, trapezoidal rule, 2048 samples/cycle; fleetpower.supply
-and fleetpower.solver) is compared with ``tests/reference_circuits.py``: the same
+and fleetpower.engine.solver) is compared with ``tests/reference_circuits.py``: the same
 circuits written again from their physical description, integrated from t = 0 with
 scipy's stiff Radau integrator (rtol 1e-9) until the line current repeats, sampled at
 4096 points and analysed with numpy.fft directly. Tolerances: tests/tolerances.py.
@@ -18,7 +18,7 @@ import reference_circuits as rc
 import tolerances as tol
 
 from fleetpower import supply
-from fleetpower.devices import diode_saturation_current_a
+from fleetpower.engine.devices import diode_saturation_current_a
 from fleetpower.io.design_file import design_from_dict
 
 CASES = [

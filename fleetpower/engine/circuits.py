@@ -40,6 +40,12 @@ mains-transformer
     transformer: the rectifier sees v_a / n and reflects its current as i / n. No
     saturation, no zener; a linear regulator after the reservoir.
 
+Owns: the residual, its Jacobian, the mass vector and the probes of every circuit
+family. The parameter, state and probe indices live in :mod:`fleetpower.engine.layout`
+(never literal positions here); the residual keeps one integer branch on the engine
+row's topology code. May import only :mod:`fleetpower.engine`; knows nothing of design
+files, topology modules, limits or reports.
+
 Conventions: consumer sign (current into the supply positive), source voltage
 ``v_s = V_pk sin(omega t)``, node voltages to neutral.
 
@@ -65,92 +71,67 @@ from .devices import (
     zener_breakdown_conductance_s,
     zener_breakdown_current_a,
 )
-
-# --- topology codes -----------------------------------------------------------------
-CAPACITIVE_DROPPER = 0
-RESISTIVE_DROPPER = 1
-RECTIFIER_SMPS = 2
-MAINS_TRANSFORMER = 3
-HALF_WAVE = 0
-BRIDGE = 1
-
-# --- parameter vector layout (one row per variant) -----------------------------------
-P_TOPO = 0  # topology code
-P_RECT = 1  # rectifier code
-P_VPK = 2  # source peak voltage [V]
-P_OMEGA = 3  # angular frequency [rad/s]
-P_RSER = 4  # series resistance of the supply, dropper resistor included [ohm]
-P_RSRC = 5  # source resistance [ohm]
-P_LSRC = 6  # source inductance [H]
-P_C1 = 7  # series (dropper) capacitance [F]
-P_RB = 8  # bleeder resistance [ohm]
-P_CO = 9  # reservoir / bulk capacitance [F]
-P_D_IS = 10  # rectifier diode saturation current [A]
-P_D_NVT = 11  # rectifier diode n*V_T [V]
-P_Z_VK = 12  # zener knee voltage [V]
-P_Z_S = 13  # zener knee width [V]
-P_Z_RZ = 14  # zener dynamic resistance [ohm]
-P_ZF_IS = 15  # zener forward saturation current [A]
-P_ZF_NVT = 16  # zener forward n*V_T [V]
-P_ILOAD = 17  # regulator output current [A]
-P_IQ = 18  # regulator quiescent current [A]
-P_VOUT = 19  # regulated output voltage [V]
-P_VDO = 20  # regulator dropout [V]
-P_PCONV = 21  # converter input power at this state [W]
-P_ETA = 22  # converter efficiency at this state [-]
-P_UVLO = 23  # converter undervoltage lockout [V]
-P_CX = 24  # X capacitance [F]
-P_NTURNS = 25  # turns ratio primary:secondary (1 where there is no transformer) [-]
-P_LM = 26  # magnetizing inductance, primary side [H]
-P_RC = 27  # core-loss resistance, primary side [ohm]
-N_PARAMS = 28
-
-N_STATES = 4
-S_VC1, S_VO, S_VA, S_IS = 0, 1, 2, 3
-
-# --- probes: instantaneous quantities recorded at every sample -----------------------
-PROBES = (
-    "i_line_a",
-    "v_source_v",
-    "p_series_resistor_w",
-    "p_source_resistance_w",
-    "p_bleeder_w",
-    "p_zener_w",
-    "p_rectifier_w",
-    "p_regulator_pass_w",
-    "p_regulator_quiescent_w",
-    "p_converter_w",
-    "p_delivered_w",
-    "p_store_series_capacitor_w",
-    "p_store_reservoir_w",
-    "p_store_x_capacitor_w",
-    "p_store_inductance_w",
-    "v_c1_v",
-    "v_o_v",
-    "i_zener_a",
-    "v_out_v",
-    "p_core_w",
-    "p_store_magnetizing_w",
-)
-N_PROBES = len(PROBES)
-#: probes that are losses inside the supply (their means are the loss budget)
-LOSS_PROBES = (
-    "p_series_resistor_w",
-    "p_bleeder_w",
-    "p_zener_w",
-    "p_rectifier_w",
-    "p_regulator_pass_w",
-    "p_regulator_quiescent_w",
-    "p_converter_w",
-    "p_core_w",
-)
-#: probes of energy storage (mean zero in periodic steady state)
-STORAGE_PROBES = (
-    "p_store_series_capacitor_w",
-    "p_store_reservoir_w",
-    "p_store_x_capacitor_w",
-    "p_store_inductance_w",
-    "p_store_magnetizing_w",
+from .layout import (
+    CAPACITIVE_DROPPER,
+    HALF_WAVE,
+    MAINS_TRANSFORMER,
+    N_PROBES,
+    N_STATES,
+    P_C1,
+    P_CO,
+    P_CX,
+    P_D_IS,
+    P_D_NVT,
+    P_ETA,
+    P_ILOAD,
+    P_IQ,
+    P_LM,
+    P_LSRC,
+    P_NTURNS,
+    P_OMEGA,
+    P_PCONV,
+    P_RB,
+    P_RC,
+    P_RECT,
+    P_RSER,
+    P_RSRC,
+    P_TOPO,
+    P_UVLO,
+    P_VDO,
+    P_VOUT,
+    P_VPK,
+    P_Z_RZ,
+    P_Z_S,
+    P_Z_VK,
+    P_ZF_IS,
+    P_ZF_NVT,
+    PR_I_LINE,
+    PR_I_ZENER,
+    PR_P_BLEEDER,
+    PR_P_CONVERTER,
+    PR_P_CORE,
+    PR_P_DELIVERED,
+    PR_P_RECTIFIER,
+    PR_P_REG_PASS,
+    PR_P_REG_QUIESCENT,
+    PR_P_SERIES,
+    PR_P_SOURCE_R,
+    PR_P_STORE_C1,
+    PR_P_STORE_CX,
+    PR_P_STORE_L,
+    PR_P_STORE_LM,
+    PR_P_STORE_RESERVOIR,
+    PR_P_ZENER,
+    PR_V_C1,
+    PR_V_O,
+    PR_V_OUT,
+    PR_V_SOURCE,
+    RECTIFIER_SMPS,
+    RESISTIVE_DROPPER,
+    S_IS,
+    S_VA,
+    S_VC1,
+    S_VO,
 )
 
 #: regulator turn-on width at zero input voltage [V] (keeps the sink passive near 0 V)
@@ -331,54 +312,54 @@ def probes(x, t, p, out):
         i_x = p[P_CX] * p[P_VPK] * w * math.cos(w * t)
         i_bl = vs / p[P_RB]
         i_line = i_s + i_x + i_bl
-        out[4] = vs * i_bl
-        out[13] = vs * i_x
+        out[PR_P_BLEEDER] = vs * i_bl
+        out[PR_P_STORE_CX] = vs * i_x
     elif topo == MAINS_TRANSFORMER:
         i_m = -p[P_VPK] / (w * p[P_LM]) * math.cos(w * t)
         i_c = vs / p[P_RC]
         i_line = i_s + i_m + i_c
-        out[19] = vs * i_c
-        out[20] = vs * i_m
+        out[PR_P_CORE] = vs * i_c
+        out[PR_P_STORE_LM] = vs * i_m
     elif topo == CAPACITIVE_DROPPER:
-        out[4] = vc1 * vc1 / p[P_RB]
-        out[11] = vc1 * (i_s - vc1 / p[P_RB])
-    out[0] = i_line
-    out[1] = vs
-    out[2] = p[P_RSER] * i_s * i_s
-    out[3] = p[P_RSRC] * i_s * i_s
-    out[14] = f[S_IS] * i_s  # L di/dt * i (zero when L_src = 0)
+        out[PR_P_BLEEDER] = vc1 * vc1 / p[P_RB]
+        out[PR_P_STORE_C1] = vc1 * (i_s - vc1 / p[P_RB])
+    out[PR_I_LINE] = i_line
+    out[PR_V_SOURCE] = vs
+    out[PR_P_SERIES] = p[P_RSER] * i_s * i_s
+    out[PR_P_SOURCE_R] = p[P_RSRC] * i_s * i_s
+    out[PR_P_STORE_L] = f[S_IS] * i_s  # L di/dt * i (zero when L_src = 0)
 
     n = p[P_NTURNS]
     vr = va / n
     zener = topo == CAPACITIVE_DROPPER or topo == RESISTIVE_DROPPER
     if rect == HALF_WAVE:
         i_d = diode_current_a(vr - vo, p[P_D_IS], p[P_D_NVT])
-        out[6] = (vr - vo) * i_d
+        out[PR_P_RECTIFIER] = (vr - vo) * i_d
         if zener:
             iz = _zener_current_a(va, p)
-            out[5] = va * iz
-            out[17] = iz
+            out[PR_P_ZENER] = va * iz
+            out[PR_I_ZENER] = iz
     else:
         i1, i2 = _bridge_paths_a(vr, vo, p)
-        out[6] = (vr - vo) * i1 + (-vr - vo) * i2
+        out[PR_P_RECTIFIER] = (vr - vo) * i1 + (-vr - vo) * i2
         if zener:
             iz = _zener_current_a(vo, p)
-            out[5] = vo * iz
-            out[17] = iz
-    out[12] = vo * f[S_VO]
+            out[PR_P_ZENER] = vo * iz
+            out[PR_I_ZENER] = iz
+    out[PR_P_STORE_RESERVOIR] = vo * f[S_VO]
 
     i_load = _load_current_a(vo, p)
     p_load = vo * i_load
     if topo == RECTIFIER_SMPS:
-        out[10] = p[P_ETA] * p_load
-        out[9] = p_load - out[10]
-        out[18] = vo
+        out[PR_P_DELIVERED] = p[P_ETA] * p_load
+        out[PR_P_CONVERTER] = p_load - out[PR_P_DELIVERED]
+        out[PR_V_OUT] = vo
     else:
         g = regulator_share(vo, p)
         v_out = p[P_VOUT] * g
-        out[10] = v_out * p[P_ILOAD] * g
-        out[8] = vo * p[P_IQ] * math.tanh(vo / REG_SOFT_V)
-        out[7] = p_load - out[10] - out[8]
-        out[18] = v_out
-    out[15] = vc1
-    out[16] = vo
+        out[PR_P_DELIVERED] = v_out * p[P_ILOAD] * g
+        out[PR_P_REG_QUIESCENT] = vo * p[P_IQ] * math.tanh(vo / REG_SOFT_V)
+        out[PR_P_REG_PASS] = p_load - out[PR_P_DELIVERED] - out[PR_P_REG_QUIESCENT]
+        out[PR_V_OUT] = v_out
+    out[PR_V_C1] = vc1
+    out[PR_V_O] = vo

@@ -3,7 +3,7 @@
 Notes
 -----
 The circuit is a semi-explicit DAE :math:`M \\dot x = f(x, t)` with a diagonal mass
-matrix (rows of zero mass are algebraic, see :mod:`fleetpower.circuits`). One mains
+matrix (rows of zero mass are algebraic, see :mod:`fleetpower.engine.circuits`). One mains
 period :math:`T` is split into ``n`` equal steps :math:`h = T/n` and integrated with the
 trapezoidal rule on the differential rows while the algebraic rows are enforced at each
 time point:
@@ -27,6 +27,11 @@ The trapezoidal rule is second order, A-stable, and conserves the energy of a ca
 over a period exactly in its own discrete inner product, which is why the energy
 balance of :mod:`fleetpower.supply` closes to a few parts per million.
 
+Owns: the one-cycle integration and the shooting iteration. Knows nothing of
+topologies: everything it needs per variant (the reservoir's physical upper bound
+among it) arrives as numbers in the engine row (:mod:`fleetpower.engine.layout`). May
+import only :mod:`fleetpower.engine` and :mod:`fleetpower.errors`.
+
 References
 ----------
 .. [1] T. J. Aprille and T. N. Trick, "Steady-state analysis of nonlinear circuits with
@@ -43,30 +48,21 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit, prange
 
-from .circuits import (
-    CAPACITIVE_DROPPER,
-    MAINS_TRANSFORMER,
+from ..errors import SolverError
+from .circuits import jacobian, mass_vector, probes, residual
+from .layout import (
     N_PARAMS,
     N_PROBES,
     N_STATES,
-    P_C1,
-    P_NTURNS,
     P_OMEGA,
     P_RSER,
     P_RSRC,
-    P_TOPO,
+    P_VO_MAX,
     P_VPK,
-    P_Z_RZ,
-    P_Z_VK,
-    RECTIFIER_SMPS,
+    PROBES,
     S_VC1,
     S_VO,
-    jacobian,
-    mass_vector,
-    probes,
-    residual,
 )
-from .errors import SolverError
 
 #: samples (= integration steps) per mains cycle; >= 2048 for a coherent FFT to h = 50
 DEFAULT_SAMPLES_PER_CYCLE = 2048
@@ -143,7 +139,7 @@ def _jacobian(x, t, p, f0, jac, scale):
 def jacobian_fd(x, t, p, f0, jac, scale):
     """Forward-difference Jacobian of the residual at ``x`` (``f0`` = residual there).
 
-    Used by the tests as an independent check of :func:`fleetpower.circuits.jacobian`.
+    Used by the tests as an independent check of :func:`fleetpower.engine.circuits.jacobian`.
     """
     n = N_STATES
     xp = x.copy()
@@ -368,15 +364,8 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
     norm_best = np.inf
     watch = 0
     cycles = 0
-    if int(p[P_TOPO]) == RECTIFIER_SMPS:
-        vo_max = 1.05 * vpk
-    elif int(p[P_TOPO]) == MAINS_TRANSFORMER:
-        vo_max = 1.05 * vpk / p[P_NTURNS]
-    else:  # the zener's voltage at the largest current the series branch can pass
-        i_pk = vpk / r_tot
-        if int(p[P_TOPO]) == CAPACITIVE_DROPPER:
-            i_pk = min(i_pk, vpk * p[P_OMEGA] * p[P_C1])
-        vo_max = min(p[P_Z_VK] + 2.0 + p[P_Z_RZ] * i_pk, 1.05 * vpk)
+    # the topology's physical bound on the reservoir voltage (its engine row carries it)
+    vo_max = p[P_VO_MAX]
 
     x_end = np.empty(n)  # x(T) of the accepted iterate x
     status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end)
@@ -494,7 +483,8 @@ class SteadyState:
     states : ndarray, shape (batch, n, 4)
         Unknowns v_c1 [V], v_o [V], v_a [V], i_s [A] at each sample.
     probes : ndarray, shape (batch, n, len(PROBES))
-        Instantaneous quantities named in :data:`fleetpower.circuits.PROBES`.
+        Instantaneous quantities named in :data:`fleetpower.engine.layout.PROBES` (read them by name with
+        :meth:`probe`).
     iterations : ndarray of int, shape (batch,)
         Shooting-Newton iterations (one-cycle integrations) used.
     periodic_residual : ndarray, shape (batch,)
@@ -510,6 +500,11 @@ class SteadyState:
     periodic_residual: np.ndarray
     converged: np.ndarray
 
+    def probe(self, name: str) -> np.ndarray:
+        """Samples of the probe ``name`` (one of :data:`~fleetpower.engine.layout.PROBES`),
+        shape (batch, n)."""
+        return self.probes[..., PROBES.index(name)]
+
 
 def solve_periodic(
     params: np.ndarray,
@@ -523,7 +518,7 @@ def solve_periodic(
     Parameters
     ----------
     params : ndarray, shape (batch, N_PARAMS)
-        Parameter rows in the layout of :mod:`fleetpower.circuits`.
+        Parameter rows in the layout of :mod:`fleetpower.engine.layout`.
     x0 : ndarray, shape (batch, 4)
         Initial guess of the unknowns at t = 0 (algebraic ones are made consistent).
     samples_per_cycle : int
