@@ -18,7 +18,7 @@ _EXPORTS = {
     "Design": "fleetpower.io.design_file",
     "analyse_unit": "fleetpower.supply",
     "simulate": "fleetpower.supply",
-    "power_quality": "fleetpower.analysis",
+    "power_quality": "fleetpower.pq.ieee1459",
     "load_fleet": "fleetpower.io.fleet_file",
     "evaluate_fleet": "fleetpower.fleet",
     "compare": "fleetpower.compare",

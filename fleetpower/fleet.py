@@ -8,7 +8,7 @@ each distinct (design, state) simulated once on the site's mains (:func:`unit_ca
 The cost of evaluation grows with the number of distinct design-states and phases, not
 with the number of units: a million units in a thousand groups is one small tensor product.
 
-Conventions as in :mod:`fleetpower.analysis` and :mod:`fleetpower.aggregate`: consumer
+Conventions as in :mod:`fleetpower.pq.ieee1459` and :mod:`fleetpower.pq.polyphase`: consumer
 sign, line-to-neutral voltages, complex rms phasors with a cosine reference, each phase's
 spectrum referred to its own voltage and rotated into L1's frame for the neutral.
 """
@@ -22,12 +22,14 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import aggregate as A
 from . import economics as E
 from . import limits as L
-from .analysis import H_MAX, phasors_vs_voltage
 from .io.design_file import Design
 from .io.fleet_file import HOURS, FleetSpec
+from .pq.derating import conductor_loading, harmonic_loss_factor, k_factor, tdd_pct
+from .pq.ieee1459 import power_totals
+from .pq.polyphase import neutral_current, sum_iec61000_3_6
+from .pq.spectrum import H_MAX, phasors_vs_voltage, thd_pct
 from .supply import simulate
 
 DAYS_PER_YEAR = 365.0
@@ -150,7 +152,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     frame, ``I[t, p, h] = Σ_k W I_k,h`` (identical units coherently, different designs with
     their own angles), or — on request — by the IEC 61000-3-6 summation law between
     design-states. The neutral is the time-domain sum of the phase currents, computed per
-    harmonic in the common frame (:func:`fleetpower.aggregate.neutral_current`); it is
+    harmonic in the common frame (:func:`fleetpower.pq.polyphase.neutral_current`); it is
     always from phasors. Energy integrates P over the 24 hours × 365 days; demand, S and
     currents are reported at the peak hour (largest kW, or kVA with a kVA demand tariff).
     """
@@ -213,10 +215,10 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         mags = np.empty(spectra.shape)
         for c in range(spectra.shape[0]):
             for p in range(n_p):
-                mags[c, p] = A.sum_iec61000_3_6(i_k, w_all_[c, p]).i_h_a
+                mags[c, p] = sum_iec61000_3_6(i_k, w_all_[c, p]).i_h_a
         # keep the phasor angles, take the law's magnitudes
         spectra = mags * np.exp(1j * np.angle(spectra))
-        label = A.sum_iec61000_3_6(i_k[:1], [1]).method
+        label = sum_iec61000_3_6(i_k[:1], [1]).method
     else:
         label = "phasor sum (identical units coherent; designs with their own angles)"
     i_rms_cp = np.sqrt(np.sum(np.abs(spectra[..., 1:]) ** 2, axis=-1)
@@ -248,14 +250,14 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         figs.append(PhaseFigures(
             phase=p, p_w=float(p_cases[peak, k]), q1_var=float(q_cases[peak, k]),
             s_va=float(s_cp[peak, k]), i_rms_a=float(i_rms_cp[peak, k]), i1_a=i1,
-            thd_i_pct=float(A.thd_pct(ih[: H_MAX + 1])) if i1 > 0 else 0.0,
-            k_factor=float(A.k_factor(ih[: H_MAX + 1])) if i_rms_cp[peak, k] > 0 else 0.0,
-            f_hl=float(A.harmonic_loss_factor(ih[: H_MAX + 1])) if i1 > 0 else 0.0,
+            thd_i_pct=float(thd_pct(ih[: H_MAX + 1])) if i1 > 0 else 0.0,
+            k_factor=float(k_factor(ih[: H_MAX + 1])) if i_rms_cp[peak, k] > 0 else 0.0,
+            f_hl=float(harmonic_loss_factor(ih[: H_MAX + 1])) if i1 > 0 else 0.0,
             i_h_a=ih[: H_MAX + 1].copy(),
         ))
-    neutral = A.neutral_current({f.phase: phasor_spectra[peak, k] for k, f in enumerate(figs)},
+    neutral = neutral_current({f.phase: phasor_spectra[peak, k] for k, f in enumerate(figs)},
                                 site.system)
-    totals = A.power_totals(
+    totals = power_totals(
         {f.phase: f.p_w for f in figs}, {f.phase: f.q1_var for f in figs},
         {f.phase: site.v_ln_v for f in figs}, {f.phase: f.i_rms_a for f in figs},
         i_n_rms_a=neutral.i_rms_a, system=site.system)
@@ -278,7 +280,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     else:
         i_l = max(f.i1_a for f in figs)
         i_l_src = "the fleet's own peak fundamental (no site demand_current given)"
-    tdd = float(A.tdd_pct(worst.i_h_a, i_l)) if i_l > 0 else 0.0
+    tdd = float(tdd_pct(worst.i_h_a, i_l)) if i_l > 0 else 0.0
     compliance: list[dict] = []
     warnings: list[str] = []
     if site.isc_a:
@@ -295,7 +297,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         ("neutral", neutral.i_rms_a, site.neutral_rating_a),
     ):
         if rating:
-            cl = A.conductor_loading(current, rating)
+            cl = conductor_loading(current, rating)
             conductors.append({"conductor": name, "i_rms_a": current, "rating_a": rating,
                                "used_pct": float(cl.used_pct), "verdict": str(cl.verdict)})
     if site.phase_rating_a and neutral.i_rms_a > worst.i_rms_a:

@@ -45,6 +45,7 @@ import pandas as pd
 
 from ._resources import data_dir
 from .errors import FleetpowerError, InputError, suggest
+from .pq.spectrum import H_MAX
 
 __all__ = [
     "COLUMNS",
@@ -115,8 +116,6 @@ DIRECTIONS: tuple[str, ...] = ("max", "min")
 FORMS: tuple[str, ...] = ("linear", "log_linear", "constant")
 RANGE_CLOSED: tuple[str, ...] = ("lower", "upper")
 
-#: Highest harmonic order the harmonic evaluators read.
-H_MAX = 50
 
 NO_LIMITS_75W = "no harmonic limits apply (≤ 75 W)"
 LIGHTING_25W = (

@@ -16,8 +16,8 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
-from .analysis import harmonic_table
 from .errors import FleetpowerError
+from .pq.spectrum import harmonic_table
 from .supply import StateResult, UnitAnalysis
 
 VERDICT_MARK = {

@@ -2,7 +2,7 @@
 
 Data flows one way: :class:`~fleetpower.io.design_file.Design` -> parameter rows
 (:func:`circuit_rows`) -> :func:`fleetpower.engine.solver.solve_periodic` -> per-state
-:class:`StateResult` (waveform, :class:`~fleetpower.analysis.PowerQuality`, loss budget)
+:class:`StateResult` (waveform, :class:`~fleetpower.pq.ieee1459.PowerQuality`, loss budget)
 -> :class:`UnitAnalysis` with stresses and warnings.
 """
 
@@ -14,13 +14,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .analysis import PowerQuality, power_quality
 from .engine import layout as c
 from .engine.devices import N_RECTIFIER, VT_V, diode_saturation_current_a, zener_knee
 from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, solve_periodic
 from .errors import InputError, suggest
 from .io.design_file import ConverterOutput, Design
 from .limits import load_limit_set
+from .pq.ieee1459 import PowerQuality, power_quality
 
 #: Mains factor at which stresses are assessed (+10 % mains, common practice, no source)
 STRESS_MAINS_FACTOR = 1.10

@@ -1,4 +1,4 @@
-"""fleetpower.analysis against closed-form Fourier series and IEEE 1459 definitions.
+"""fleetpower.pq (spectrum, IEEE 1459) against closed-form Fourier series and IEEE 1459 definitions.
 
 Sources of the expected values are named beside each check; "from memory" marks a
 series recalled from the standard tables rather than looked up.
@@ -14,7 +14,8 @@ import tolerances as tol
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from fleetpower import analysis
+from fleetpower.pq import ieee1459 as ieee
+from fleetpower.pq import spectrum as spec
 
 N = 4096  # samples per period
 THETA = 2.0 * np.pi * np.arange(N) / N
@@ -29,7 +30,7 @@ def test_half_wave_rectified_sine_series():
     """
     a = 3.7
     x = a * np.maximum(np.sin(THETA), 0.0)
-    ph = analysis.phasors(x)
+    ph = spec.phasors(x)
     assert ph[0].real == pytest.approx(a / math.pi, rel=tol.FFT_REL)
     # sin t = cos(t - 90 deg): rms phasor (A/2)/sqrt 2 at -90 deg (cosine reference)
     assert ph[1] == pytest.approx(a / 2 / math.sqrt(2) * np.exp(-0.5j * np.pi), rel=tol.FFT_REL)
@@ -45,7 +46,7 @@ def test_half_wave_rectified_current_against_its_voltage():
     a = 2.0
     v = 325.0 * np.sin(THETA)
     i = a * np.maximum(np.sin(THETA), 0.0)
-    q = analysis.power_quality(v, i)
+    q = ieee.power_quality(v, i)
     # same handbook series as above; the fundamental is in phase with v
     assert q.i_h_a[1] == pytest.approx(a / 2 / math.sqrt(2), rel=tol.FFT_REL)
     assert q.i_dc_a == pytest.approx(a / math.pi, rel=tol.FFT_REL)
@@ -72,7 +73,7 @@ def test_square_wave_series_and_thd():
     t = 2.0 * np.pi * (np.arange(n_samp) + 0.5) / n_samp  # no sample on a jump
     a = 1.5
     x = a * np.sign(np.sin(t))
-    ph = analysis.phasors(x)
+    ph = spec.phasors(x)
     # half-sample offset: the sampled wave is a square wave delayed by half a sample
     shift = np.exp(-1j * np.arange(ph.shape[0]) * np.pi / n_samp)
     ph = ph * shift
@@ -81,12 +82,12 @@ def test_square_wave_series_and_thd():
         assert abs(ph[n] - expect) < tol.SQUARE_REL * abs(expect) + 1e-12, n
     for n in range(2, 50, 2):
         assert abs(ph[n]) < 1e-9 * a, n
-    thd_all = float(analysis.thd_pct(ph, h_max=n_samp // 2 - 1))
+    thd_all = float(spec.thd_pct(ph, h_max=n_samp // 2 - 1))
     assert thd_all == pytest.approx(100 * math.sqrt(math.pi**2 / 8 - 1), rel=tol.SQUARE_REL)
     assert 100 * math.sqrt(math.pi**2 / 8 - 1) == pytest.approx(48.3, abs=0.05)
     # the default range stops at h = 50: the series summed to n = 49
     partial = 100 * math.sqrt(sum(1.0 / n**2 for n in range(3, 50, 2)))
-    assert float(analysis.thd_pct(ph)) == pytest.approx(partial, rel=tol.SQUARE_REL)
+    assert float(spec.thd_pct(ph)) == pytest.approx(partial, rel=tol.SQUARE_REL)
     assert partial < thd_all  # the truncated sum misses the tail
 
 
@@ -94,7 +95,7 @@ def test_resistive_load_has_unity_power_factors():
     # v and i = v/R in phase: PF = DPF = 1, THD = 0, Q1 = 0 (IEEE 1459 definitions)
     v = 230.0 * math.sqrt(2) * np.sin(THETA + 0.3)
     r = 47.0
-    q = analysis.power_quality(v, v / r)
+    q = ieee.power_quality(v, v / r)
     assert q.pf == pytest.approx(1.0, abs=tol.EXACT)
     assert q.dpf == pytest.approx(1.0, abs=tol.EXACT)
     assert q.thd_i_pct == pytest.approx(0.0, abs=tol.EXACT)
@@ -109,7 +110,7 @@ def test_capacitor_current_is_reactive_and_negative_q():
     w = 2 * math.pi * f
     v = vrms * math.sqrt(2) * np.sin(THETA)
     i = cap * w * vrms * math.sqrt(2) * np.cos(THETA)
-    q = analysis.power_quality(v, i)
+    q = ieee.power_quality(v, i)
     assert q.pf == pytest.approx(0.0, abs=tol.EXACT)
     assert q.dpf == pytest.approx(0.0, abs=tol.EXACT)
     assert q.q1_var < 0.0
@@ -125,7 +126,7 @@ def test_phase_is_relative_to_voltage_fundamental(phi):
     """Shifting both waveforms in time leaves every reported phase unchanged."""
     v = 100.0 * np.cos(THETA + phi)
     i = 2.0 * np.cos(THETA + phi - math.radians(30)) + 0.5 * np.cos(3 * (THETA + phi) + 1.0)
-    q = analysis.power_quality(v, i)
+    q = ieee.power_quality(v, i)
     ph = q.harmonics().set_index("h")["phase_deg"]
     assert ph[1] == pytest.approx(-30.0, abs=1e-9)  # lagging 30 deg
     assert ph[3] == pytest.approx(math.degrees(1.0), abs=1e-9)
@@ -145,7 +146,7 @@ def test_parseval_for_band_limited_signals(dc, amps, phases):
     th = 2 * np.pi * np.arange(n) / n
     x = dc + sum(a * np.cos(h * th + phases[h - 1]) for h, a in enumerate(amps, start=1))
     v = np.sin(th)
-    q = analysis.power_quality(v, x)
+    q = ieee.power_quality(v, x)
     rms = math.sqrt(float(np.mean(x * x)))
     rss = math.sqrt(float(np.sum(np.abs(q.i_h_a) ** 2)))
     assert q.i_rms_a == pytest.approx(rms, rel=1e-12, abs=1e-12)

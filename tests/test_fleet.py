@@ -341,7 +341,7 @@ def test_iec61000_3_6_summation_changes_magnitudes_and_says_so(run_fleet):
     assert "61000-3-6" in iec["summation"] and "phasor" in ph["summation"]
     assert "61000-3-6" not in ph["summation"]
     # the neutral stays a phasor sum whatever the law (a magnitude law has no angles;
-    # fleetpower.aggregate.sum_iec61000_3_6 notes)
+    # fleetpower.pq.polyphase.sum_iec61000_3_6 notes)
     assert iec["neutral"]["harmonics_a"] == pytest.approx(
         ph["neutral"]["harmonics_a"], rel=REL_EXACT
     )

@@ -18,8 +18,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .. import aggregate as A
 from ..errors import InputError, suggest
+from ..pq.polyphase import system_phases
 from ..units import parse_quantity
 from .design_file import Design, Mains, load_design
 from .toml import read_toml
@@ -36,7 +36,7 @@ HOURS = 24
 class Site:
     """The supply the fleet hangs on."""
 
-    system: str  # "single" | "split" | "wye" (aggregate's names)
+    system: str  # "single" | "split" | "wye" (pq.polyphase names)
     system_label: str
     v_ln_v: float
     f_hz: float
@@ -49,7 +49,7 @@ class Site:
 
     @property
     def phases(self) -> list[str]:
-        return list(A.system_phases(self.system))
+        return list(system_phases(self.system))
 
 
 @dataclass(frozen=True)
