@@ -22,7 +22,7 @@ _EXPORTS = {
     "load_fleet": "fleetpower.io.fleet_file",
     "evaluate_fleet": "fleetpower.fleet",
     "compare": "fleetpower.compare",
-    "unit_compliance": "fleetpower.compliance",
+    "unit_compliance": "fleetpower.limits.applicability",
     "InputError": "fleetpower.errors",
     "SolverError": "fleetpower.errors",
 }

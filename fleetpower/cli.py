@@ -30,7 +30,7 @@ def cmd_unit(args) -> int:
 
     design = load_design(args.design)
     if args.limits:  # read the user's limit file before the (longer) solve
-        from .limits import load_limit_set
+        from .limits.tables import load_limit_set
 
         load_limit_set(args.limits)
     states = [args.state] if args.state else None
@@ -53,7 +53,7 @@ def cmd_unit(args) -> int:
 
 
 def _compliance(design, analysis, args):
-    from .compliance import unit_compliance
+    from .limits.applicability import unit_compliance
 
     return unit_compliance(design, analysis, limits_file=getattr(args, "limits", None))
 

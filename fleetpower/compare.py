@@ -15,11 +15,11 @@ from pathlib import Path
 import pandas as pd
 
 from . import economics as E
-from .compliance import lightest_state, rated_state, unit_compliance
 from .errors import InputError
 from .fleet import FleetResult, evaluate_fleet, unit_catalogue
 from .io.design_file import Design, load_design
 from .io.fleet_file import FleetSpec, load_fleet
+from .limits.applicability import lightest_state, rated_state, unit_compliance
 from .supply import UnitAnalysis, analyse_unit
 
 DEFAULT_YEARS = 10

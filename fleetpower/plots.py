@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import FleetpowerError
-from .limits import load_limit_set
+from .limits.tables import load_limit_set
 
 PLOT_HINT = "plots need matplotlib: pip install 'fleetpower[plot]'"
 
@@ -47,7 +47,7 @@ def comparison_figures(cmp, folder) -> list[Path]:
     Returns the paths written.
     """
     plt = require_matplotlib()
-    from .compliance import rated_state
+    from .limits.applicability import rated_state
 
     out = Path(folder)
     out.mkdir(parents=True, exist_ok=True)

@@ -19,7 +19,7 @@ from .engine.devices import N_RECTIFIER, VT_V, diode_saturation_current_a, zener
 from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, solve_periodic
 from .errors import InputError, suggest
 from .io.design_file import ConverterOutput, Design
-from .limits import load_limit_set
+from .limits.tables import load_limit_set
 from .pq.ieee1459 import PowerQuality, power_quality
 
 #: Mains factor at which stresses are assessed (+10 % mains, common practice, no source)

@@ -1,19 +1,10 @@
-"""Published limits: data tables under ``data/limits/`` and pure evaluation functions.
+"""Limit rules: one evaluator per kind of limit, each a pure function returning compliance rows.
 
-Every limit is one row of a CSV table (format documented in ``data/limits/README.md``).
-The functions here read those rows and compare a measured or simulated value against
-them, returning :class:`ComplianceRow` records with a verdict and a margin.
-
-The margin convention is the same for every row:
-
-* ``direction == "max"`` (value must be at most the limit):
-  ``used_pct = 100 * (value / limit)``, ``headroom = limit - value``.
-* ``direction == "min"`` (value must be at least the limit, e.g. efficiency):
-  ``used_pct = 100 * (limit / value)``, ``headroom = value - limit``.
-
-So in both cases ``used_pct == 100`` exactly at the limit, ``used_pct > 100`` means
-failing and ``headroom < 0`` means failing. The verdict flips exactly at the limit: a
-value equal to the limit passes.
+Harmonic emissions (IEC 61000-3-2), standby and off mode, external power supplies
+(no-load power and average active efficiency), IEEE 519 current and voltage distortion,
+capacitor discharge at the plug pins, and users' own sets. Each compares a measured or
+simulated value against rows of :mod:`fleetpower.limits.tables` and returns
+:class:`~fleetpower.limits.tables.ComplianceRow` records with a verdict and a margin.
 
 All values shipped in the tables are recalled, not copied from the published text,
 unless their ``provenance`` column says otherwise. The tool is an engineering aid: it
@@ -30,453 +21,36 @@ Commission Regulation (EC) No 1275/2008 as amended by (EU) No 801/2013.
 Commission Regulation (EU) 2019/1782 (external power supplies).
 US DOE 10 CFR 430.32(w) (external power supplies, Level VI).
 IEC 60335-1 clause 22.5; IEC 62368-1 clause 5.5.2.2 (capacitor discharge).
+
+Owns: how each kind of limit is evaluated. May import ``limits.tables``, ``errors`` and
+``pq``; nothing that simulates (the figures arrive as numbers).
 """
 
 from __future__ import annotations
 
-import functools
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from ._resources import data_dir
-from .errors import FleetpowerError, InputError, suggest
-from .pq.spectrum import H_MAX
-
-__all__ = [
-    "COLUMNS",
-    "ComplianceRow",
-    "average_active_efficiency",
-    "evaluate_discharge",
-    "evaluate_eps",
-    "evaluate_harmonic_emissions",
-    "evaluate_ieee519",
-    "evaluate_ieee519_voltage",
-    "evaluate_standby",
-    "evaluate_user_set",
-    "formula_limit",
-    "ieee519_row",
-    "limits_dir",
-    "list_limit_sets",
-    "load_limit_set",
-    "margin",
-]
-
-#: Columns a limit file must have.
-REQUIRED_COLUMNS: tuple[str, ...] = ("set", "quantity", "limit", "unit", "kind")
-#: Columns a limit file may have (with the defaults used when absent).
-OPTIONAL_COLUMNS: dict[str, str] = {
-    "title": "",
-    "harmonic": "",
-    "direction": "max",
-    "form": "",
-    "a": "",
-    "b": "",
-    "c": "",
-    "cap": "",
-    "applies_from_w": "",
-    "applies_to_w": "",
-    "range_on": "",
-    "range_from": "",
-    "range_to": "",
-    "range_closed": "",
-    "in_force_from": "",
-    "edition": "",
-    "clause": "",
-    "provenance": "user file",
-    "note": "",
-}
-COLUMNS: tuple[str, ...] = REQUIRED_COLUMNS + tuple(OPTIONAL_COLUMNS)
-NUMERIC_COLUMNS: tuple[str, ...] = (
-    "harmonic",
-    "limit",
-    "a",
-    "b",
-    "c",
-    "cap",
-    "applies_from_w",
-    "applies_to_w",
-    "range_from",
-    "range_to",
+from ..errors import InputError, suggest
+from ..pq.spectrum import H_MAX
+from .tables import (
+    ComplianceRow,
+    covers_power,
+    covers_range,
+    limit_frame,
+    make_row,
+    not_applicable_row,
 )
-KINDS: tuple[str, ...] = (
-    "absolute",
-    "per_watt",
-    "pct_of_fundamental",
-    "pct_of_fundamental_times_pf",
-    "pct_of_il",
-    "formula",
-    "threshold",
-)
-DIRECTIONS: tuple[str, ...] = ("max", "min")
-FORMS: tuple[str, ...] = ("linear", "log_linear", "constant")
-RANGE_CLOSED: tuple[str, ...] = ("lower", "upper")
-
 
 NO_LIMITS_75W = "no harmonic limits apply (≤ 75 W)"
 LIGHTING_25W = (
     "not evaluated: lighting ≤ 25 W has alternative requirements "
     "(IEC 61000-3-2 clause 7.4.3, from memory)"
 )
-
-
-@dataclass(frozen=True)
-class ComplianceRow:
-    """One limited quantity compared against its limit.
-
-    Attributes
-    ----------
-    set : str
-        Limit set id, e.g. ``"iec61000-3-2-class-a"``.
-    quantity : str
-        Limited quantity, e.g. ``"i_h3_a"``.
-    value : float or None
-        Measured or simulated value [``unit``]; None when not applicable.
-    limit : float or None
-        Evaluated limit [``unit``]; None when not applicable.
-    unit : str
-        Unit of ``value``, ``limit`` and ``headroom``.
-    used_pct : float or None
-        Share of the limit used [%]; 100 exactly at the limit, above 100 failing (see
-        the module docstring for "at least" limits).
-    headroom : float or None
-        Distance to the limit [``unit``]; negative means failing.
-    verdict : str
-        ``"pass"``, ``"fail"`` or ``"not applicable"``.
-    clause, edition, provenance : str
-        Where the limit comes from and how it was obtained.
-    reason : str
-        One line explaining a "not applicable" verdict or how the limit was derived.
-    """
-
-    set: str
-    quantity: str
-    value: float | None
-    limit: float | None
-    unit: str
-    used_pct: float | None
-    headroom: float | None
-    verdict: str
-    clause: str
-    edition: str
-    provenance: str
-    reason: str = ""
-
-
-# --------------------------------------------------------------------------------------
-# margins
-# --------------------------------------------------------------------------------------
-def margin(value: float, limit: float, direction: str = "max") -> tuple[float, float, str]:
-    """Return ``(used_pct, headroom, verdict)`` for one value against one limit.
-
-    Parameters
-    ----------
-    value : float
-        Measured or simulated value [unit of the limit].
-    limit : float
-        Limit [same unit].
-    direction : {"max", "min"}
-        ``"max"``: value must be at most the limit; ``"min"``: at least.
-
-    Returns
-    -------
-    used_pct : float
-        [%] ``100 * value / limit`` for "max", ``100 * limit / value`` for "min".
-        Exactly 100 at the limit; strictly above 100 whenever the verdict is "fail".
-    headroom : float
-        [unit] ``limit - value`` for "max", ``value - limit`` for "min"; negative fails.
-    verdict : str
-        ``"pass"`` or ``"fail"``; a value equal to the limit passes.
-
-    Notes
-    -----
-    The ratio is formed first and then scaled (``100 * (value / limit)``), so the
-    ratio is exactly 1 at the limit. When rounding would put a failing value at
-    exactly 100 %, ``used_pct`` is moved to the next float above 100 so that
-    ``used_pct > 100`` and "fail" always agree. ``used_pct`` is non-decreasing in
-    ``value`` for "max" and non-increasing for "min".
-
-    References
-    ----------
-    Common practice, no source (percent-of-limit reporting).
-    """
-    value = float(value)
-    limit = float(limit)
-    if direction == "max":
-        ok = value <= limit
-        headroom = limit - value
-        if limit > 0:
-            used = 100.0 * (value / limit)
-        elif limit == 0:
-            used = 100.0 if value == 0 else (math.inf if value > 0 else 0.0)
-        else:
-            raise ValueError(f"an at-most limit must be >= 0, got {limit}")
-    elif direction == "min":
-        ok = value >= limit
-        headroom = value - limit
-        if value > 0:
-            used = 100.0 * (limit / value)
-        else:
-            used = 100.0 if limit == value else math.inf
-    else:
-        raise ValueError(f"direction must be 'max' or 'min', got {direction!r}")
-    if not ok and used <= 100.0:
-        used = math.nextafter(100.0, math.inf)
-    if ok and used > 100.0:  # only reachable through rounding; keep the two consistent
-        used = 100.0
-    return used, headroom, "pass" if ok else "fail"
-
-
-def _row(
-    rec: Mapping,
-    value: float | None,
-    limit: float | None,
-    unit: str | None = None,
-    reason: str = "",
-    quantity: str | None = None,
-) -> ComplianceRow:
-    """Build a ComplianceRow from a table record; None value or limit => not applicable."""
-    unit = rec["unit"] if unit is None else unit
-    common = dict(
-        set=str(rec["set"]),
-        quantity=str(rec["quantity"] if quantity is None else quantity),
-        unit=str(unit),
-        clause=str(rec.get("clause", "")),
-        edition=str(rec.get("edition", "")),
-        provenance=str(rec.get("provenance", "")),
-    )
-    if value is None or limit is None or not np.isfinite(limit):
-        return ComplianceRow(
-            value=value,
-            limit=limit,
-            used_pct=None,
-            headroom=None,
-            verdict="not applicable",
-            reason=reason,
-            **common,
-        )
-    used, head, verdict = margin(value, limit, str(rec.get("direction", "max") or "max"))
-    return ComplianceRow(
-        value=float(value),
-        limit=float(limit),
-        used_pct=used,
-        headroom=head,
-        verdict=verdict,
-        reason=reason,
-        **common,
-    )
-
-
-def _not_applicable(
-    set_id: str,
-    reason: str,
-    df: pd.DataFrame | None = None,
-    quantity: str = "",
-    unit: str | None = None,
-) -> ComplianceRow:
-    """One "not applicable" row for a whole set (clause and edition from its first row)."""
-    rec = df.iloc[0].to_dict() if df is not None and len(df) else {}
-    return ComplianceRow(
-        set=set_id,
-        quantity=quantity,
-        value=None,
-        limit=None,
-        unit=unit if unit is not None else (str(rec.get("unit", "")) if rec else ""),
-        used_pct=None,
-        headroom=None,
-        verdict="not applicable",
-        clause=str(rec.get("clause", "")) if rec else "",
-        edition=str(rec.get("edition", "")) if rec else "",
-        provenance=str(rec.get("provenance", "")) if rec else "",
-        reason=reason,
-    )
-
-
-# --------------------------------------------------------------------------------------
-# loading and validation
-# --------------------------------------------------------------------------------------
-def limits_dir() -> Path:
-    """Folder holding the shipped limit tables (``data/limits``)."""
-    return data_dir() / "limits"
-
-
-def _as_float(text: str, file: str, row_no: int, col: str) -> float:
-    try:
-        out = float(text)
-    except ValueError:
-        raise InputError(file, f"row {row_no}, column {col}", f"'{text}' is not a number") from None
-    if not math.isfinite(out):
-        raise InputError(file, f"row {row_no}, column {col}", f"'{text}' is not a finite number")
-    return out
-
-
-def _read_table(path: Path) -> pd.DataFrame:
-    """Read and validate one limit file; row numbers count the header as row 1."""
-    file = str(path)
-    try:
-        raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
-    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
-        raise InputError(file, "", f"cannot read limit file: {exc}") from None
-    raw.columns = [str(c).strip() for c in raw.columns]
-    for col in raw.columns:
-        if col not in COLUMNS:
-            raise InputError(
-                file, f"row 1, column {col}", f"unknown column '{col}'{suggest(col, COLUMNS)}"
-            )
-    for col in REQUIRED_COLUMNS:
-        if col not in raw.columns:
-            raise InputError(file, "row 1", f"missing required column '{col}'")
-    for col, default in OPTIONAL_COLUMNS.items():
-        if col not in raw.columns:
-            raw[col] = default
-    raw = raw.apply(lambda s: s.str.strip())
-    records = []
-    for i, rec in enumerate(raw.to_dict("records")):
-        row_no = i + 2
-        for col in ("set", "quantity", "unit", "kind"):
-            if rec[col] == "":
-                raise InputError(file, f"row {row_no}, column {col}", "empty cell")
-        for col, choices in (
-            ("kind", KINDS),
-            ("direction", DIRECTIONS),
-            ("form", FORMS),
-            ("range_closed", RANGE_CLOSED),
-        ):
-            if col == "direction" and rec[col] == "":
-                rec[col] = "max"
-            if rec[col] != "" and rec[col] not in choices:
-                raise InputError(
-                    file,
-                    f"row {row_no}, column {col}",
-                    f"'{rec[col]}' is not one of {', '.join(choices)}{suggest(rec[col], choices)}",
-                )
-        out = dict(rec)
-        for col in NUMERIC_COLUMNS:
-            out[col] = np.nan if rec[col] == "" else _as_float(rec[col], file, row_no, col)
-        if rec["kind"] == "formula":
-            if rec["form"] == "":
-                raise InputError(file, f"row {row_no}, column form", "formula row needs a form")
-            for col in ("a", "b", "c"):
-                if np.isnan(out[col]):
-                    out[col] = 0.0
-        elif np.isnan(out["limit"]):
-            raise InputError(file, f"row {row_no}, column limit", "empty cell")
-        if not np.isnan(out["harmonic"]) and out["harmonic"] != int(out["harmonic"]):
-            raise InputError(
-                file, f"row {row_no}, column harmonic", f"'{rec['harmonic']}' is not an integer"
-            )
-        out["row"] = row_no
-        out["file"] = file
-        records.append(out)
-    df = pd.DataFrame.from_records(records, columns=list(COLUMNS) + ["row", "file"])
-    return df
-
-
-@functools.lru_cache(maxsize=4)
-def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> pd.DataFrame:
-    frames = [_read_table(Path(name)) for name, _ in stamp]
-    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=COLUMNS)
-
-
-def _shipped() -> pd.DataFrame:
-    """All shipped rows (cached per file modification time; a copy is returned)."""
-    files = sorted(limits_dir().glob("*.csv"))
-    if not files:
-        raise FleetpowerError(f"no limit tables found in {limits_dir()}: the installation "
-                              "is incomplete (reinstall fleetpower)")
-    stamp = tuple((str(f), f.stat().st_mtime) for f in files)
-    return _shipped_cached(str(limits_dir()), stamp).copy()
-
-
-def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
-    """Load a limit set by shipped id or from a CSV file.
-
-    Parameters
-    ----------
-    path_or_name : str or Path
-        A shipped set id (see :func:`list_limit_sets`), or the path of a CSV file in the
-        ``data/limits`` format (all its rows are returned).
-
-    Returns
-    -------
-    pandas.DataFrame
-        One row per limited quantity with every column of :data:`COLUMNS` (numeric
-        columns as float, NaN when empty) plus ``row`` (spreadsheet row number, header
-        = 1) and ``file``.
-
-    Raises
-    ------
-    InputError
-        Unknown column (with a close-match suggestion), missing required column,
-        non-numeric or empty cell, unknown ``kind``/``direction``/``form``, or unknown
-        set id. The place reads ``"row N, column C"``.
-
-    References
-    ----------
-    Format: ``data/limits/README.md`` (this project).
-    """
-    text = str(path_or_name)
-    path = Path(text)
-    if path.suffix.lower() == ".csv" or path.is_file():
-        if not path.is_file():
-            raise InputError(text, "", "limit file not found")
-        return _read_table(path)
-    shipped = _shipped()
-    sel = shipped[shipped["set"] == text]
-    if sel.empty:
-        ids = sorted(set(shipped["set"]))
-        raise InputError(text, "limit set", f"unknown limit set '{text}' and no such file"
-                         f"{suggest(text, ids)}; 'fleetpower limits' lists the sets")
-    return sel.reset_index(drop=True)
-
-
-def list_limit_sets() -> pd.DataFrame:
-    """Summarise the shipped limit sets.
-
-    Returns
-    -------
-    pandas.DataFrame
-        Columns ``set``, ``title``, ``edition``, ``clause``, ``provenance``, ``rows``.
-
-    References
-    ----------
-    See the module docstring for the standards behind each set.
-    """
-    df = _shipped()
-    out = (
-        df.groupby("set", sort=True)
-        .agg(
-            title=("title", "first"),
-            edition=("edition", "first"),
-            clause=("clause", lambda s: "; ".join(dict.fromkeys(s))),
-            provenance=("provenance", "first"),
-            rows=("quantity", "size"),
-        )
-        .reset_index()
-    )
-    return out
-
-
-def _in_power(rec: Mapping, p_w: float) -> bool:
-    """Power applicability: ``applies_from_w < p_w <= applies_to_w`` (empty = unbounded)."""
-    lo, hi = rec["applies_from_w"], rec["applies_to_w"]
-    return (np.isnan(lo) or p_w > lo) and (np.isnan(hi) or p_w <= hi)
-
-
-def _in_range(rec: Mapping, x: float) -> bool:
-    """Range applicability on ``range_on``; ``lower``: from <= x < to, ``upper``: from < x <= to."""
-    lo, hi = rec["range_from"], rec["range_to"]
-    if rec["range_closed"] == "upper":
-        return (np.isnan(lo) or x > lo) and (np.isnan(hi) or x <= hi)
-    return (np.isnan(lo) or x >= lo) and (np.isnan(hi) or x < hi)
-
-
-def _frame(set_or_df: str | Path | pd.DataFrame) -> pd.DataFrame:
-    return set_or_df if isinstance(set_or_df, pd.DataFrame) else load_limit_set(set_or_df)
 
 
 # --------------------------------------------------------------------------------------
@@ -550,28 +124,28 @@ def evaluate_harmonic_emissions(
             " (choose A, B, C or D)",
         )
     set_id = _CLASS_SETS[cls]
-    df = _frame(set_id if limit_set is None else limit_set)
+    df = limit_frame(set_id if limit_set is None else limit_set)
     i_h = _harmonics(i_h_rms_a, "i_h_rms_a")
     p_w = float(p_w)
     if is_lighting and cls != "C":
         return [
-            _not_applicable(
+            not_applicable_row(
                 set_id, f"lighting equipment is Class C, not Class {cls}", df, "i_h_a", "A"
             )
         ]
     if cls == "C":
         if not is_lighting:
             return [
-                _not_applicable(set_id, "Class C is for lighting equipment only", df, "i_h_a", "A")
+                not_applicable_row(set_id, "Class C is for lighting equipment only", df, "i_h_a", "A")
             ]
         if p_w <= 25:
-            return [_not_applicable(set_id, LIGHTING_25W, df, "i_h_a", "A")]
+            return [not_applicable_row(set_id, LIGHTING_25W, df, "i_h_a", "A")]
     else:
         if p_w <= 75:
-            return [_not_applicable(set_id, NO_LIMITS_75W, df, "i_h_a", "A")]
+            return [not_applicable_row(set_id, NO_LIMITS_75W, df, "i_h_a", "A")]
         if cls == "D" and p_w > 600:
             return [
-                _not_applicable(
+                not_applicable_row(
                     set_id,
                     "Class D applies from 75 W to 600 W; choose Class A above 600 W",
                     df,
@@ -585,13 +159,13 @@ def evaluate_harmonic_emissions(
             continue
         h = int(rec["harmonic"])
         if h >= i_h.size:
-            rows.append(_row(rec, None, None, "A", f"no value for harmonic {h}"))
+            rows.append(make_row(rec, None, None, "A", f"no value for harmonic {h}"))
             continue
-        if not _in_power(rec, p_w):
-            rows.append(_row(rec, None, None, "A", f"row does not apply at {p_w:g} W"))
+        if not covers_power(rec, p_w):
+            rows.append(make_row(rec, None, None, "A", f"row does not apply at {p_w:g} W"))
             continue
         lim, how = _iec_limit_a(rec, p_w, i_h[1], pf)
-        rows.append(_row(rec, float(i_h[h]), lim, "A", how))
+        rows.append(make_row(rec, float(i_h[h]), lim, "A", how))
     return rows
 
 
@@ -672,18 +246,18 @@ def evaluate_standby(
             f"unknown mode '{mode}'{suggest(mode, _STANDBY_MODES)}"
             f" (choose {', '.join(_STANDBY_MODES)})",
         )
-    df = _frame(limit_set)
+    df = limit_frame(limit_set)
     sel = df[df["quantity"] == _STANDBY_MODES[mode]]
     if sel.empty:
         return [
-            _not_applicable(
+            not_applicable_row(
                 str(df["set"].iloc[0]),
                 f"set has no row for mode '{mode}'",
                 df,
                 _STANDBY_MODES[mode],
             )
         ]
-    return [_row(rec, float(p_w), rec["limit"]) for rec in sel.to_dict("records")]
+    return [make_row(rec, float(p_w), rec["limit"]) for rec in sel.to_dict("records")]
 
 
 def average_active_efficiency(eff_at_fractions: Sequence[float]) -> float:
@@ -788,23 +362,23 @@ def evaluate_eps(
     region = str(region).lower()
     if region not in ("eu", "us"):
         raise InputError("<input>", "region", f"unknown region '{region}' (choose eu or us)")
-    df = _frame(_EPS_SETS[(region, bool(low_voltage))] if limit_set is None else limit_set)
+    df = limit_frame(_EPS_SETS[(region, bool(low_voltage))] if limit_set is None else limit_set)
     p = float(p_out_rated_w)
     if not p > 0:
         raise InputError("<input>", "p_out_rated_w", "rated output power must be > 0 W")
     rows = []
     for qty, value in (("no_load_p_w", no_load_p_w), ("avg_active_eff_frac", average_efficiency)):
         sel = [r for r in df.to_dict("records") if r["quantity"] == qty]
-        hit = [r for r in sel if _in_power(r, p)]
+        hit = [r for r in sel if covers_power(r, p)]
         if not hit:
             base = sel[0] if sel else {"set": str(df["set"].iloc[0]), "quantity": qty, "unit": ""}
             rows.append(
-                _row(base, None, None, reason=f"no row covers P_out = {p:g} W (out of scope)")
+                make_row(base, None, None, reason=f"no row covers P_out = {p:g} W (out of scope)")
             )
             continue
         rec = hit[0]
         lim = formula_limit(rec, p) if rec["kind"] == "formula" else rec["limit"]
-        rows.append(_row(rec, float(value), lim))
+        rows.append(make_row(rec, float(value), lim))
     return rows
 
 
@@ -898,8 +472,8 @@ def evaluate_ieee519(
         raise InputError("<input>", "i_l_a", "IL and Isc must be > 0 A")
     ratio = 1.0 if generation else isc_a / i_l_a
     label = ieee519_row(ratio)
-    df = _frame(limit_set)
-    recs = [r for r in df.to_dict("records") if _in_range(r, ratio)]
+    df = limit_frame(limit_set)
+    recs = [r for r in df.to_dict("records") if covers_range(r, ratio)]
     reason = f"Isc/IL row {label}" + (" (generation equipment)" if generation else "")
     rows = []
     for rec in recs:
@@ -910,7 +484,7 @@ def evaluate_ieee519(
             value = arr[int(rec["harmonic"])] / i_l_a * 100.0
         else:
             continue
-        rows.append(_row(rec, float(value), rec["limit"], "%", reason))
+        rows.append(make_row(rec, float(value), rec["limit"], "%", reason))
     return rows
 
 
@@ -949,11 +523,11 @@ def evaluate_ieee519_voltage(
         "v_h_individual_pct": float(harm.max()),
         "thd_v_pct": float(math.sqrt(float(np.sum(harm**2)))),
     }
-    df = _frame(limit_set)
+    df = limit_frame(limit_set)
     return [
-        _row(r, values[r["quantity"]], r["limit"], "%", f"bus {float(bus_kv):g} kV")
+        make_row(r, values[r["quantity"]], r["limit"], "%", f"bus {float(bus_kv):g} kV")
         for r in df.to_dict("records")
-        if _in_range(r, float(bus_kv)) and r["quantity"] in values
+        if covers_range(r, float(bus_kv)) and r["quantity"] in values
     ]
 
 
@@ -1010,7 +584,7 @@ def evaluate_discharge(
                 "<input>", "rule", f"unknown rule '{rule}'{suggest(rule, _DISCHARGE_SETS)}"
             )
         limit_set = _DISCHARGE_SETS[rule]
-    df = _frame(limit_set)
+    df = limit_frame(limit_set)
     v0_v, r_bleed_ohm, c_f = float(v0_v), float(r_bleed_ohm), float(c_f)
     if not (v0_v >= 0 and r_bleed_ohm > 0 and c_f > 0):
         raise InputError("<input>", "discharge", "need V0 >= 0 V, R > 0 ohm and C > 0 F")
@@ -1024,7 +598,7 @@ def evaluate_discharge(
     if "c_min_f" in by_q and c_f <= by_q["c_min_f"]["limit"]:
         cmin = by_q["c_min_f"]["limit"]
         return [
-            _not_applicable(
+            not_applicable_row(
                 set_id, f"capacitance ≤ {cmin:g} F: rule does not apply", df, "t_discharge_s"
             )
         ]
@@ -1035,8 +609,8 @@ def evaluate_discharge(
     v_res = v0_v * math.exp(-t_allowed / tau_s)
     note = f"tau = R·C = {tau_s:g} s, V0 = {v0_v:g} V"
     return [
-        _row(by_q["t_discharge_s"], t_s, t_allowed, reason=note),
-        _row(by_q["v_threshold_v"], v_res, v_lim, reason=note, quantity="v_residual_v"),
+        make_row(by_q["t_discharge_s"], t_s, t_allowed, reason=note),
+        make_row(by_q["v_threshold_v"], v_res, v_lim, reason=note, quantity="v_residual_v"),
     ]
 
 
@@ -1073,7 +647,7 @@ def evaluate_user_set(
     ----------
     Format: ``data/limits/README.md`` (this project).
     """
-    table = _frame(df)
+    table = limit_frame(df)
     rows = []
     for rec in table.to_dict("records"):
         if rec["kind"] != "absolute":
@@ -1084,9 +658,23 @@ def evaluate_user_set(
             )
         q = rec["quantity"]
         if q not in values:
-            rows.append(_row(rec, None, None, reason=f"no value given for '{q}'"))
-        elif "p_w" in values and not _in_power(rec, float(values["p_w"])):
-            rows.append(_row(rec, None, None, reason=f"row does not apply at {values['p_w']:g} W"))
+            rows.append(make_row(rec, None, None, reason=f"no value given for '{q}'"))
+        elif "p_w" in values and not covers_power(rec, float(values["p_w"])):
+            rows.append(make_row(rec, None, None, reason=f"row does not apply at {values['p_w']:g} W"))
         else:
-            rows.append(_row(rec, float(values[q]), rec["limit"]))
+            rows.append(make_row(rec, float(values[q]), rec["limit"]))
     return rows
+
+
+__all__ = [
+    "average_active_efficiency",
+    "evaluate_discharge",
+    "evaluate_eps",
+    "evaluate_harmonic_emissions",
+    "evaluate_ieee519",
+    "evaluate_ieee519_voltage",
+    "evaluate_standby",
+    "evaluate_user_set",
+    "formula_limit",
+    "ieee519_row",
+]

@@ -1,9 +1,12 @@
 """Which published limits apply to one supply, evaluated on its simulated figures.
 
-This joins the engine's metrics (:mod:`fleetpower.supply`) with the limit tables
-(:mod:`fleetpower.limits`). The tool reports margins against the tables it ships; it
-does not certify anything, and defers to the standards' own texts, local codes and
-licensed practice.
+This joins the engine's metrics (:mod:`fleetpower.supply`) with the limit tables and
+rules (:mod:`fleetpower.limits.tables`, :mod:`fleetpower.limits.rules`). The tool reports
+margins against the tables it ships; it does not certify anything, and defers to the
+standards' own texts, local codes and licensed practice.
+
+Owns: the choice of limit sets for a unit and the figures they are evaluated on. May import
+the rest of ``limits``, ``io`` and the unit analysis; nothing of fleet, compare or report.
 """
 
 from __future__ import annotations
@@ -12,9 +15,9 @@ from dataclasses import asdict
 
 import numpy as np
 
-from . import limits as L
-from .io.design_file import ConverterOutput, Design
-from .supply import STRESS_MAINS_FACTOR, UnitAnalysis, simulate_cases
+from .. import limits as L
+from ..io.design_file import ConverterOutput, Design
+from ..supply import STRESS_MAINS_FACTOR, UnitAnalysis, simulate_cases
 
 #: load fractions of the average-active-efficiency test (EU 2019/1782, US Level VI)
 EPS_LOAD_FRACTIONS = (0.25, 0.50, 0.75, 1.00)

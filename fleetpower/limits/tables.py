@@ -1,0 +1,455 @@
+"""Limit tables: reading ``data/limits/*.csv`` (and users' files), the compliance row, margins.
+
+Every limit is one row of a CSV table (format documented in ``data/limits/README.md``).
+This module reads and validates those tables, selects rows, and defines
+:class:`ComplianceRow`, the record every evaluator in :mod:`fleetpower.limits.rules`
+returns, with its verdict and margin.
+
+The margin convention is the same for every row:
+
+* ``direction == "max"`` (value must be at most the limit):
+  ``used_pct = 100 * (value / limit)``, ``headroom = limit - value``.
+* ``direction == "min"`` (value must be at least the limit, e.g. efficiency):
+  ``used_pct = 100 * (limit / value)``, ``headroom = value - limit``.
+
+So in both cases ``used_pct == 100`` exactly at the limit, ``used_pct > 100`` means
+failing and ``headroom < 0`` means failing. The verdict flips exactly at the limit: a
+value equal to the limit passes.
+
+Owns: the limit-file format, the shipped-table cache, :class:`ComplianceRow`, :func:`margin`.
+May import ``errors`` and ``_resources`` only; nothing that simulates or evaluates a unit.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .._resources import data_dir
+from ..errors import FleetpowerError, InputError, suggest
+
+#: Columns a limit file must have.
+REQUIRED_COLUMNS: tuple[str, ...] = ("set", "quantity", "limit", "unit", "kind")
+#: Columns a limit file may have (with the defaults used when absent).
+OPTIONAL_COLUMNS: dict[str, str] = {
+    "title": "",
+    "harmonic": "",
+    "direction": "max",
+    "form": "",
+    "a": "",
+    "b": "",
+    "c": "",
+    "cap": "",
+    "applies_from_w": "",
+    "applies_to_w": "",
+    "range_on": "",
+    "range_from": "",
+    "range_to": "",
+    "range_closed": "",
+    "in_force_from": "",
+    "edition": "",
+    "clause": "",
+    "provenance": "user file",
+    "note": "",
+}
+COLUMNS: tuple[str, ...] = REQUIRED_COLUMNS + tuple(OPTIONAL_COLUMNS)
+NUMERIC_COLUMNS: tuple[str, ...] = (
+    "harmonic",
+    "limit",
+    "a",
+    "b",
+    "c",
+    "cap",
+    "applies_from_w",
+    "applies_to_w",
+    "range_from",
+    "range_to",
+)
+KINDS: tuple[str, ...] = (
+    "absolute",
+    "per_watt",
+    "pct_of_fundamental",
+    "pct_of_fundamental_times_pf",
+    "pct_of_il",
+    "formula",
+    "threshold",
+)
+DIRECTIONS: tuple[str, ...] = ("max", "min")
+FORMS: tuple[str, ...] = ("linear", "log_linear", "constant")
+RANGE_CLOSED: tuple[str, ...] = ("lower", "upper")
+
+
+@dataclass(frozen=True)
+class ComplianceRow:
+    """One limited quantity compared against its limit.
+
+    Attributes
+    ----------
+    set : str
+        Limit set id, e.g. ``"iec61000-3-2-class-a"``.
+    quantity : str
+        Limited quantity, e.g. ``"i_h3_a"``.
+    value : float or None
+        Measured or simulated value [``unit``]; None when not applicable.
+    limit : float or None
+        Evaluated limit [``unit``]; None when not applicable.
+    unit : str
+        Unit of ``value``, ``limit`` and ``headroom``.
+    used_pct : float or None
+        Share of the limit used [%]; 100 exactly at the limit, above 100 failing (see
+        the module docstring for "at least" limits).
+    headroom : float or None
+        Distance to the limit [``unit``]; negative means failing.
+    verdict : str
+        ``"pass"``, ``"fail"`` or ``"not applicable"``.
+    clause, edition, provenance : str
+        Where the limit comes from and how it was obtained.
+    reason : str
+        One line explaining a "not applicable" verdict or how the limit was derived.
+    """
+
+    set: str
+    quantity: str
+    value: float | None
+    limit: float | None
+    unit: str
+    used_pct: float | None
+    headroom: float | None
+    verdict: str
+    clause: str
+    edition: str
+    provenance: str
+    reason: str = ""
+
+
+# --------------------------------------------------------------------------------------
+# margins
+# --------------------------------------------------------------------------------------
+def margin(value: float, limit: float, direction: str = "max") -> tuple[float, float, str]:
+    """Return ``(used_pct, headroom, verdict)`` for one value against one limit.
+
+    Parameters
+    ----------
+    value : float
+        Measured or simulated value [unit of the limit].
+    limit : float
+        Limit [same unit].
+    direction : {"max", "min"}
+        ``"max"``: value must be at most the limit; ``"min"``: at least.
+
+    Returns
+    -------
+    used_pct : float
+        [%] ``100 * value / limit`` for "max", ``100 * limit / value`` for "min".
+        Exactly 100 at the limit; strictly above 100 whenever the verdict is "fail".
+    headroom : float
+        [unit] ``limit - value`` for "max", ``value - limit`` for "min"; negative fails.
+    verdict : str
+        ``"pass"`` or ``"fail"``; a value equal to the limit passes.
+
+    Notes
+    -----
+    The ratio is formed first and then scaled (``100 * (value / limit)``), so the
+    ratio is exactly 1 at the limit. When rounding would put a failing value at
+    exactly 100 %, ``used_pct`` is moved to the next float above 100 so that
+    ``used_pct > 100`` and "fail" always agree. ``used_pct`` is non-decreasing in
+    ``value`` for "max" and non-increasing for "min".
+
+    References
+    ----------
+    Common practice, no source (percent-of-limit reporting).
+    """
+    value = float(value)
+    limit = float(limit)
+    if direction == "max":
+        ok = value <= limit
+        headroom = limit - value
+        if limit > 0:
+            used = 100.0 * (value / limit)
+        elif limit == 0:
+            used = 100.0 if value == 0 else (math.inf if value > 0 else 0.0)
+        else:
+            raise ValueError(f"an at-most limit must be >= 0, got {limit}")
+    elif direction == "min":
+        ok = value >= limit
+        headroom = value - limit
+        if value > 0:
+            used = 100.0 * (limit / value)
+        else:
+            used = 100.0 if limit == value else math.inf
+    else:
+        raise ValueError(f"direction must be 'max' or 'min', got {direction!r}")
+    if not ok and used <= 100.0:
+        used = math.nextafter(100.0, math.inf)
+    if ok and used > 100.0:  # only reachable through rounding; keep the two consistent
+        used = 100.0
+    return used, headroom, "pass" if ok else "fail"
+
+
+def make_row(
+    rec: Mapping,
+    value: float | None,
+    limit: float | None,
+    unit: str | None = None,
+    reason: str = "",
+    quantity: str | None = None,
+) -> ComplianceRow:
+    """Build a ComplianceRow from a table record; None value or limit => not applicable."""
+    unit = rec["unit"] if unit is None else unit
+    common = dict(
+        set=str(rec["set"]),
+        quantity=str(rec["quantity"] if quantity is None else quantity),
+        unit=str(unit),
+        clause=str(rec.get("clause", "")),
+        edition=str(rec.get("edition", "")),
+        provenance=str(rec.get("provenance", "")),
+    )
+    if value is None or limit is None or not np.isfinite(limit):
+        return ComplianceRow(
+            value=value,
+            limit=limit,
+            used_pct=None,
+            headroom=None,
+            verdict="not applicable",
+            reason=reason,
+            **common,
+        )
+    used, head, verdict = margin(value, limit, str(rec.get("direction", "max") or "max"))
+    return ComplianceRow(
+        value=float(value),
+        limit=float(limit),
+        used_pct=used,
+        headroom=head,
+        verdict=verdict,
+        reason=reason,
+        **common,
+    )
+
+
+def not_applicable_row(
+    set_id: str,
+    reason: str,
+    df: pd.DataFrame | None = None,
+    quantity: str = "",
+    unit: str | None = None,
+) -> ComplianceRow:
+    """One "not applicable" row for a whole set (clause and edition from its first row)."""
+    rec = df.iloc[0].to_dict() if df is not None and len(df) else {}
+    return ComplianceRow(
+        set=set_id,
+        quantity=quantity,
+        value=None,
+        limit=None,
+        unit=unit if unit is not None else (str(rec.get("unit", "")) if rec else ""),
+        used_pct=None,
+        headroom=None,
+        verdict="not applicable",
+        clause=str(rec.get("clause", "")) if rec else "",
+        edition=str(rec.get("edition", "")) if rec else "",
+        provenance=str(rec.get("provenance", "")) if rec else "",
+        reason=reason,
+    )
+
+
+# --------------------------------------------------------------------------------------
+# loading and validation
+# --------------------------------------------------------------------------------------
+def limits_dir() -> Path:
+    """Folder holding the shipped limit tables (``data/limits``)."""
+    return data_dir() / "limits"
+
+
+def _as_float(text: str, file: str, row_no: int, col: str) -> float:
+    try:
+        out = float(text)
+    except ValueError:
+        raise InputError(file, f"row {row_no}, column {col}", f"'{text}' is not a number") from None
+    if not math.isfinite(out):
+        raise InputError(file, f"row {row_no}, column {col}", f"'{text}' is not a finite number")
+    return out
+
+
+def _read_table(path: Path) -> pd.DataFrame:
+    """Read and validate one limit file; row numbers count the header as row 1."""
+    file = str(path)
+    try:
+        raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
+        raise InputError(file, "", f"cannot read limit file: {exc}") from None
+    raw.columns = [str(c).strip() for c in raw.columns]
+    for col in raw.columns:
+        if col not in COLUMNS:
+            raise InputError(
+                file, f"row 1, column {col}", f"unknown column '{col}'{suggest(col, COLUMNS)}"
+            )
+    for col in REQUIRED_COLUMNS:
+        if col not in raw.columns:
+            raise InputError(file, "row 1", f"missing required column '{col}'")
+    for col, default in OPTIONAL_COLUMNS.items():
+        if col not in raw.columns:
+            raw[col] = default
+    raw = raw.apply(lambda s: s.str.strip())
+    records = []
+    for i, rec in enumerate(raw.to_dict("records")):
+        row_no = i + 2
+        for col in ("set", "quantity", "unit", "kind"):
+            if rec[col] == "":
+                raise InputError(file, f"row {row_no}, column {col}", "empty cell")
+        for col, choices in (
+            ("kind", KINDS),
+            ("direction", DIRECTIONS),
+            ("form", FORMS),
+            ("range_closed", RANGE_CLOSED),
+        ):
+            if col == "direction" and rec[col] == "":
+                rec[col] = "max"
+            if rec[col] != "" and rec[col] not in choices:
+                raise InputError(
+                    file,
+                    f"row {row_no}, column {col}",
+                    f"'{rec[col]}' is not one of {', '.join(choices)}{suggest(rec[col], choices)}",
+                )
+        out = dict(rec)
+        for col in NUMERIC_COLUMNS:
+            out[col] = np.nan if rec[col] == "" else _as_float(rec[col], file, row_no, col)
+        if rec["kind"] == "formula":
+            if rec["form"] == "":
+                raise InputError(file, f"row {row_no}, column form", "formula row needs a form")
+            for col in ("a", "b", "c"):
+                if np.isnan(out[col]):
+                    out[col] = 0.0
+        elif np.isnan(out["limit"]):
+            raise InputError(file, f"row {row_no}, column limit", "empty cell")
+        if not np.isnan(out["harmonic"]) and out["harmonic"] != int(out["harmonic"]):
+            raise InputError(
+                file, f"row {row_no}, column harmonic", f"'{rec['harmonic']}' is not an integer"
+            )
+        out["row"] = row_no
+        out["file"] = file
+        records.append(out)
+    df = pd.DataFrame.from_records(records, columns=list(COLUMNS) + ["row", "file"])
+    return df
+
+
+@functools.lru_cache(maxsize=4)
+def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> pd.DataFrame:
+    frames = [_read_table(Path(name)) for name, _ in stamp]
+    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=COLUMNS)
+
+
+def _shipped() -> pd.DataFrame:
+    """All shipped rows (cached per file modification time; a copy is returned)."""
+    files = sorted(limits_dir().glob("*.csv"))
+    if not files:
+        raise FleetpowerError(f"no limit tables found in {limits_dir()}: the installation "
+                              "is incomplete (reinstall fleetpower)")
+    stamp = tuple((str(f), f.stat().st_mtime) for f in files)
+    return _shipped_cached(str(limits_dir()), stamp).copy()
+
+
+def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
+    """Load a limit set by shipped id or from a CSV file.
+
+    Parameters
+    ----------
+    path_or_name : str or Path
+        A shipped set id (see :func:`list_limit_sets`), or the path of a CSV file in the
+        ``data/limits`` format (all its rows are returned).
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per limited quantity with every column of :data:`COLUMNS` (numeric
+        columns as float, NaN when empty) plus ``row`` (spreadsheet row number, header
+        = 1) and ``file``.
+
+    Raises
+    ------
+    InputError
+        Unknown column (with a close-match suggestion), missing required column,
+        non-numeric or empty cell, unknown ``kind``/``direction``/``form``, or unknown
+        set id. The place reads ``"row N, column C"``.
+
+    References
+    ----------
+    Format: ``data/limits/README.md`` (this project).
+    """
+    text = str(path_or_name)
+    path = Path(text)
+    if path.suffix.lower() == ".csv" or path.is_file():
+        if not path.is_file():
+            raise InputError(text, "", "limit file not found")
+        return _read_table(path)
+    shipped = _shipped()
+    sel = shipped[shipped["set"] == text]
+    if sel.empty:
+        ids = sorted(set(shipped["set"]))
+        raise InputError(text, "limit set", f"unknown limit set '{text}' and no such file"
+                         f"{suggest(text, ids)}; 'fleetpower limits' lists the sets")
+    return sel.reset_index(drop=True)
+
+
+def list_limit_sets() -> pd.DataFrame:
+    """Summarise the shipped limit sets.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``set``, ``title``, ``edition``, ``clause``, ``provenance``, ``rows``.
+
+    References
+    ----------
+    See the module docstring for the standards behind each set.
+    """
+    df = _shipped()
+    out = (
+        df.groupby("set", sort=True)
+        .agg(
+            title=("title", "first"),
+            edition=("edition", "first"),
+            clause=("clause", lambda s: "; ".join(dict.fromkeys(s))),
+            provenance=("provenance", "first"),
+            rows=("quantity", "size"),
+        )
+        .reset_index()
+    )
+    return out
+
+
+def covers_power(rec: Mapping, p_w: float) -> bool:
+    """Power applicability: ``applies_from_w < p_w <= applies_to_w`` (empty = unbounded)."""
+    lo, hi = rec["applies_from_w"], rec["applies_to_w"]
+    return (np.isnan(lo) or p_w > lo) and (np.isnan(hi) or p_w <= hi)
+
+
+def covers_range(rec: Mapping, x: float) -> bool:
+    """Range applicability on ``range_on``; ``lower``: from <= x < to, ``upper``: from < x <= to."""
+    lo, hi = rec["range_from"], rec["range_to"]
+    if rec["range_closed"] == "upper":
+        return (np.isnan(lo) or x > lo) and (np.isnan(hi) or x <= hi)
+    return (np.isnan(lo) or x >= lo) and (np.isnan(hi) or x < hi)
+
+
+def limit_frame(set_or_df: str | Path | pd.DataFrame) -> pd.DataFrame:
+    return set_or_df if isinstance(set_or_df, pd.DataFrame) else load_limit_set(set_or_df)
+
+
+__all__ = [
+    "COLUMNS",
+    "ComplianceRow",
+    "covers_power",
+    "covers_range",
+    "limit_frame",
+    "limits_dir",
+    "list_limit_sets",
+    "load_limit_set",
+    "make_row",
+    "margin",
+    "not_applicable_row",
+]
