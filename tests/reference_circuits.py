@@ -2,7 +2,7 @@
 
 Written from the physical description of the topologies (the docstrings of
 :mod:`fleetpower.engine.circuits`, :mod:`fleetpower.engine.devices` and, for the transformer, of
-``fleetpower.supply.transformer_model``), **not** from the engine's code:
+``fleetpower.topologies.mains_transformer.transformer_model``), **not** from the engine's code:
 nothing here imports ``fleetpower.engine.circuits``, ``fleetpower.engine.solver`` or
 ``fleetpower.supply``. Only the datasheet-to-model helpers of :mod:`fleetpower.engine.devices`
 (``diode_saturation_current_a``, ``zener_knee`` and the physical constants) are used,

@@ -20,6 +20,7 @@ import tolerances as tol
 from fleetpower import supply
 from fleetpower.engine.devices import diode_saturation_current_a
 from fleetpower.io.design_file import design_from_dict
+from fleetpower.topologies.mains_transformer import transformer_model
 
 CASES = [
     ("dropper-half-wave", "active"),
@@ -159,7 +160,7 @@ def test_half_wave_deliverable_current_bounds():
     """Simulated deliverable current against closed-form upper bounds and the reference.
 
     Upper bounds, in order: the ideal charge pump f C (2 Vpk - Vz - Vf) (closed form
-    derived in the docstring of fleetpower.supply.charge_pump_limit_a), then the sine
+    derived in the docstring of fleetpower.topologies.capacitive_dropper.charge_pump_limit_a), then the sine
     average, then the 74.6 mA rule of thumb. Lower bound: the 20 mA 'active' load, which
     the Radau reference holds in regulation (reservoir minimum above 5 V + 2 V dropout).
     """
@@ -195,7 +196,7 @@ def test_transformer_equivalent_circuit_from_datasheet():
     """
     d = design("transformer-bridge")
     mine = rc.transformer_equivalent(d)
-    assert mine == pytest.approx(supply.transformer_model(d), rel=1e-12)
+    assert mine == pytest.approx(transformer_model(d), rel=1e-12)
     hand = {
         "turns_ratio": 25.556,
         "winding_resistance_ohm": 8816.7,
@@ -209,7 +210,7 @@ def test_transformer_equivalent_circuit_from_datasheet():
     table = rc.example_table(rc.TRANSFORMER_EXAMPLE)
     del table["parts"]["no_load_current"]
     d2 = design_from_dict(table)
-    assert rc.transformer_equivalent(d2) == pytest.approx(supply.transformer_model(d2), rel=1e-12)
+    assert rc.transformer_equivalent(d2) == pytest.approx(transformer_model(d2), rel=1e-12)
     # 230 / (2 pi 50 x 3 x 1.9565 mA) = 124.72 H (by hand)
     assert rc.transformer_equivalent(d2)["magnetizing_inductance_h"] == pytest.approx(
         124.72, rel=1e-4

@@ -17,7 +17,7 @@ import numpy as np
 
 from .. import limits as L
 from ..io.design_file import ConverterOutput, Design
-from ..supply import STRESS_MAINS_FACTOR, UnitAnalysis, simulate_cases
+from ..supply import UnitAnalysis, simulate_cases
 
 #: load fractions of the average-active-efficiency test (EU 2019/1782, US Level VI)
 EPS_LOAD_FRACTIONS = (0.25, 0.50, 0.75, 1.00)
@@ -125,17 +125,10 @@ def unit_compliance(design: Design, analysis: UnitAnalysis, limits_file=None) ->
             rows += _rows(L.evaluate_eps(no_load, avg, design.output.rated_power,
                                          low_voltage=low_v, region=region))
     # 4. plug-pin discharge after unplugging
-    cap = rb = None
-    if design.topology == "capacitive-dropper":
-        cap, rb = design.parts.series_capacitance, design.parts.bleeder_resistance
-        v0 = next((s.value for s in analysis.stresses if s.item.startswith("series capacitor")),
-                  None)
-    elif design.topology == "rectifier-smps":
-        cap, rb = design.parts.x_capacitance, design.parts.bleeder_resistance
-        v0 = design.mains.voltage * 2**0.5 * STRESS_MAINS_FACTOR
-    if cap is not None and v0 is not None:
+    dis = design.topology_impl.discharge(design, analysis.stresses)
+    if dis is not None:
         for rule in ("iec60335-1", "iec62368-1"):
-            rows += _rows(L.evaluate_discharge(v0, rb, cap, rule=rule))
+            rows += _rows(L.evaluate_discharge(dis.v0_v, dis.r_bleeder_ohm, dis.c_f, rule=rule))
     # 5. the user's own file
     if limits_file is not None:
         df = L.load_limit_set(limits_file)

@@ -1,0 +1,87 @@
+"""Building blocks of the input schema: unit-bearing field types and shared models.
+
+Every physical value is a string with its unit (``"3.3 uF"``, ``"120 V"``); pint checks its
+dimension here and pydantic the range. The design file (:mod:`fleetpower.io.design_file`)
+and the topologies' parts models (:mod:`fleetpower.topologies`) are built from these.
+
+Owns: the quantity types, :class:`Strict`, :class:`Mains`, :class:`DiodeSpec` and the two
+output models. May import ``errors`` and ``units`` only.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Any, Literal
+
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field
+
+from ..errors import InputError
+from ..units import parse_quantity
+
+
+class _UnitError(ValueError):
+    pass
+
+
+def _q(dimension: str):
+    def parse(value: Any) -> float:
+        try:
+            return parse_quantity(value, dimension)
+        except InputError as exc:
+            raise _UnitError(exc.message) from None
+
+    return BeforeValidator(parse)
+
+
+Positive = Field(gt=0)
+NonNegative = Field(ge=0)
+Voltage = Annotated[float, _q("voltage"), Positive]
+Current = Annotated[float, _q("current"), Positive]
+CurrentNN = Annotated[float, _q("current"), NonNegative]
+Power = Annotated[float, _q("power"), Positive]
+Capacitance = Annotated[float, _q("capacitance"), Positive]
+Resistance = Annotated[float, _q("resistance"), Positive]
+ResistanceNN = Annotated[float, _q("resistance"), NonNegative]
+InductanceNN = Annotated[float, _q("inductance"), NonNegative]
+Frequency = Annotated[float, _q("frequency"), Positive]
+VoltageNN = Annotated[float, _q("voltage"), NonNegative]
+
+
+class Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+class Mains(Strict):
+    """Supply the unit is plugged into (line-to-neutral rms voltage)."""
+
+    voltage: Voltage
+    frequency: Frequency
+    source_resistance: ResistanceNN = 0.0
+    source_inductance: InductanceNN = 0.0
+
+
+class DiodeSpec(Strict):
+    """Rectifier diode figures as a datasheet gives them (defaults: a 1N400x-like part)."""
+
+    forward_voltage: Voltage = 0.7
+    forward_test_current: Current = 0.020
+
+
+class LinearOutput(Strict):
+    """Linear regulator after the reservoir of a dropper."""
+
+    voltage: Voltage
+    regulator: Literal["linear"] = "linear"
+    quiescent_current: CurrentNN = 0.0
+    dropout: VoltageNN = 1.0
+
+
+class ConverterOutput(Strict):
+    """Switch-mode converter after the bulk capacitor."""
+
+    voltage: Voltage
+    rated_power: Power
+    no_load_input_power: Power
+    efficiency: list[Annotated[list[float], Field(min_length=2, max_length=2)]] = Field(
+        min_length=1
+    )
+    undervoltage_lockout: Voltage
