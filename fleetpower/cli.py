@@ -128,7 +128,7 @@ def cmd_compare(args) -> int:
     from .report import compare_markdown, compare_to_dict, render_compare
 
     if args.plots:
-        from .plots import require_matplotlib
+        from .report.plots import require_matplotlib
 
         require_matplotlib()
     cmp = run_compare(args.fleet, args.design, args.years, args.rate, args.escalation,
@@ -145,7 +145,7 @@ def cmd_compare(args) -> int:
     if args.markdown:
         write_atomic(args.markdown, compare_markdown(report))
     if args.plots:
-        from .plots import comparison_figures
+        from .report.plots import comparison_figures
 
         comparison_figures(cmp, args.plots)
     if args.json:

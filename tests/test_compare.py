@@ -19,7 +19,13 @@ from fleetpower._resources import examples_dir
 from fleetpower.cli import main
 from fleetpower.compare import compare
 from fleetpower.errors import FleetpowerError, InputError
-from fleetpower.report import COMPARE_ROWS, _cell, compare_markdown, compare_to_dict, render_compare
+from fleetpower.report import (
+    COMPARE_ROWS,
+    compare_cell,
+    compare_markdown,
+    compare_to_dict,
+    render_compare,
+)
 
 EX = examples_dir()
 FLEET = EX / "harbour-office.toml"
@@ -107,7 +113,7 @@ def test_terminal_summary_at_80_columns_matches_json(ab):
             continue
         row = next(line for line in text.splitlines() if line.strip().startswith(label))
         for x in d["designs"]:
-            assert _cell(x, key, digits, unit, d["currency"]) in row, (label, row)
+            assert compare_cell(x, key, digits, unit, d["currency"]) in row, (label, row)
     # verdicts readable without colour
     assert "passes" in text or "FAILS" in text
     assert d["recommendation"].split(":")[0] in " ".join(text.split())
@@ -122,7 +128,7 @@ def test_markdown_report_has_every_design_and_the_recommendation(ab):
 
 def test_plots_are_valid_png_and_svg_with_expected_axes(ab, tmp_path):
     # matplotlib comes with the test extra (pyproject: test = [..., "matplotlib"])
-    from fleetpower.plots import comparison_figures
+    from fleetpower.report.plots import comparison_figures
 
     paths = comparison_figures(ab, tmp_path)
     n = len(ab.candidates)
@@ -149,7 +155,7 @@ def test_plots_without_matplotlib_say_how_to_get_it(monkeypatch):
         return real_import(name, *args, **kwargs)
 
     monkeypatch.setattr(builtins, "__import__", no_mpl)
-    from fleetpower.plots import require_matplotlib
+    from fleetpower.report.plots import require_matplotlib
 
     with pytest.raises(FleetpowerError, match=r"pip install 'fleetpower\[plot\]'"):
         require_matplotlib()

@@ -1,4 +1,8 @@
-"""Figures for comparisons (optional extra: ``pip install fleetpower[plot]``)."""
+"""Figures for comparisons (optional extra: ``pip install fleetpower[plot]``).
+
+Owns: the comparison figures (PNG and SVG). Imports matplotlib only when called; may import
+``limits`` and the comparison's results; nothing imports it but ``cli``.
+"""
 
 from __future__ import annotations
 
@@ -6,8 +10,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import FleetpowerError
-from .limits.tables import load_limit_set
+from ..errors import FleetpowerError
+from ..limits.tables import load_limit_set
 
 PLOT_HINT = "plots need matplotlib: pip install 'fleetpower[plot]'"
 
@@ -47,7 +51,7 @@ def comparison_figures(cmp, folder) -> list[Path]:
     Returns the paths written.
     """
     plt = require_matplotlib()
-    from .limits.applicability import rated_state
+    from ..limits.applicability import rated_state
 
     out = Path(folder)
     out.mkdir(parents=True, exist_ok=True)

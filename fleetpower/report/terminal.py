@@ -1,24 +1,22 @@
-"""Rendering: JSON-ready dictionaries and rich terminal summaries.
+"""Terminal rendering (rich) of the report dictionaries of :mod:`fleetpower.report.model`.
 
-Every figure shown on the terminal is taken from the same dictionary that ``--json``
-prints, so the two can never disagree beyond the displayed digits.
+Readable at 80 columns and without colour. Every figure comes from the dictionary.
+
+Owns: the layout of the terminal summaries of a unit, a fleet and a comparison. May import
+``report.model`` and rich; it computes nothing.
 """
 
 from __future__ import annotations
 
 import math
-from typing import Any
 
-import numpy as np
 from rich import box
 from rich.console import Console, Group
 from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
-from .errors import FleetpowerError
-from .pq.spectrum import harmonic_table
-from .supply import StateResult, UnitAnalysis
+from .model import COMPARE_ROWS, compare_cell, fmt
 
 VERDICT_MARK = {
     "pass": "PASS",
@@ -27,133 +25,10 @@ VERDICT_MARK = {
     "note": "info",
     "not applicable": "n/a",
 }
+
+
 VERDICT_STYLE = {"pass": "green", "fail": "bold red", "unrated": "yellow", "note": "cyan",
                  "not applicable": "dim"}
-
-
-def _clean(x: Any) -> Any:
-    """Make a value JSON-safe: numpy scalars to Python, NaN/inf refused loudly."""
-    if isinstance(x, dict):
-        return {k: _clean(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_clean(v) for v in x]
-    if isinstance(x, (np.floating, float)):
-        v = float(x)
-        if not math.isfinite(v):
-            raise FleetpowerError("a reported figure came out NaN or infinite; "
-                                  "refusing to print it (please report this design)")
-        return v
-    if isinstance(x, (np.integer,)):
-        return int(x)
-    if isinstance(x, np.bool_):
-        return bool(x)
-    return x
-
-
-def state_to_dict(r: StateResult) -> dict:
-    """JSON-ready figures of one state (keys carry their units)."""
-    q = r.pq
-    table = harmonic_table(q.i_h_a)
-    return {
-        "state": r.state,
-        "v_rms_v": q.v_rms_v,
-        "i_rms_a": q.i_rms_a,
-        "i_peak_a": q.i_peak_a,
-        "crest_factor": q.crest_factor,
-        "p_w": q.p_w,
-        "s_va": q.s_va,
-        "q1_var": q.q1_var,
-        "p1_w": q.p1_w,
-        "s1_va": q.s1_va,
-        "n_var": q.n_var,
-        "d_i_var": q.d_i_var,
-        "pf": q.pf,
-        "dpf": q.dpf,
-        "thd_i_pct": q.thd_i_pct,
-        "i_dc_mains_a": q.i_dc_a,
-        "harmonics": [
-            {"h": int(row.h), "i_rms_a": row.i_rms_a,
-             "pct_of_fundamental": row.pct_of_fundamental, "phase_deg": row.phase_deg}
-            for row in table.itertuples()
-        ],
-        "losses_w": dict(r.losses_w),
-        "delivered_w": r.balance.delivered_w,
-        "balance": {
-            "p_in_w": r.balance.p_in_w,
-            "delivered_w": r.balance.delivered_w,
-            "losses_w": r.balance.losses_w,
-            "source_resistance_w": r.balance.source_resistance_w,
-            "residual_w": r.balance.residual_w,
-            "residual_pct": r.balance.residual_pct,
-        },
-        "output": {
-            "v_dc_v": r.v_dc_v,
-            "v_dc_min_v": r.v_dc_min_v,
-            "ripple_v_pp": r.ripple_v_pp,
-            "i_dc_a": r.i_dc_a,
-            "i_load_set_a": r.load_a,
-            "in_regulation": r.in_regulation,
-        },
-        "shooting_iterations": r.iterations,
-    }
-
-
-def unit_to_dict(u: UnitAnalysis) -> dict:
-    """JSON-ready report of a unit analysis.
-
-    The top level holds the design's figures and a ``states`` list; when exactly one
-    state was analysed, its figures also stand at the top level.
-    """
-    d = u.design
-    out: dict[str, Any] = {
-        "design": d.name,
-        "file": d.source,
-        "topology": d.topology,
-        "isolated": d.is_isolated,
-        "caution": u.caution,
-        "unit_price": d.unit_price,
-        "mains": {"v_rms_v": d.mains.voltage, "f_hz": d.mains.frequency},
-        "states": [state_to_dict(r) for r in u.states],
-        "stresses": [
-            {"item": s.item, "value": s.value, "unit": s.unit, "limit": s.limit,
-             "used_pct": s.used_pct, "verdict": s.verdict, "condition": s.condition,
-             "note": s.note}
-            for s in u.stresses
-        ],
-        "warnings": list(u.warnings),
-    }
-    if u.max_deliverable_a is not None:
-        out["max_deliverable_i_dc_a"] = u.max_deliverable_a
-    if u.hand is not None:
-        h = u.hand
-        out["hand_estimate"] = {
-            "xc_ohm": h.xc_ohm, "i_cap_rms_a": h.i_cap_rms_a, "rule": h.rule,
-            "hand_estimate_i_dc_a": h.hand_estimate_a, "sine_average_i_dc_a": h.sine_average_a,
-            "charge_pump_i_dc_a": h.charge_pump_a, "simulated_max_i_dc_a": h.simulated_max_a,
-            "explanation": h.explanation,
-        }
-    if "compliance" in u.extra:
-        out["compliance"] = u.extra["compliance"]
-    if len(u.states) == 1:
-        for k, v in out["states"][0].items():
-            out.setdefault(k, v)
-    return _clean(out)
-
-
-# ----------------------------------------------------------------------------------
-# terminal
-# ----------------------------------------------------------------------------------
-def fmt(x: float | None, digits: int = 3, unit: str = "") -> str:
-    """Engineering-friendly number with ``digits`` significant figures and a unit."""
-    if x is None:
-        return "—"
-    if abs(x) < 1e-9:  # below any current or power the tool resolves
-        s = "0"
-    else:
-        mag = math.floor(math.log10(abs(x)))
-        dec = max(digits - 1 - mag, 0)
-        s = f"{x:.{dec}f}"
-    return f"{s} {unit}".rstrip()
 
 
 def _verdict(v: str) -> Text:
@@ -329,65 +204,6 @@ def render_unit(report: dict, console: Console) -> None:
                             border_style="yellow", title_align="left"))
 
 
-# ----------------------------------------------------------------------------------
-# fleets
-# ----------------------------------------------------------------------------------
-def _peak_case(r) -> str:
-    flat = float(np.ptp(r.hourly["p_kw"])) <= 1e-9 * max(float(r.hourly["p_kw"].abs().max()), 1e-30)
-    when = ("every hour alike (hours per day spread evenly)" if flat
-            else f"hour {r.peak_hour:02d}:00-{r.peak_hour + 1:02d}:00")
-    return when + (", coincident (diversity) case" if r.peak_coincident else "")
-
-
-def fleet_to_dict(r) -> dict:
-    """JSON-ready report of a :class:`fleetpower.fleet.FleetResult` (units in key names)."""
-    site = r.spec.site
-    out = {
-        "fleet": r.spec.name,
-        "file": r.spec.file,
-        "site": {"system": site.system_label, "v_ln_v": site.v_ln_v, "f_hz": site.f_hz,
-                 "isc_a": site.isc_a, "isc_source": site.isc_source,
-                 "currency": site.currency},
-        "units": r.units,
-        "summation": r.summation_label,
-        "peak_hour": r.peak_hour,
-        "peak_coincident": r.peak_coincident,
-        "peak_case": _peak_case(r),
-        "p_kw": r.p_kw,
-        "q1_kvar": r.q1_kvar,
-        "q1_sense": "leading (capacitive)" if r.q1_kvar < 0 else "lagging (inductive)",
-        "s_kva": r.s_kva,
-        "s_e_kva": r.s_e_kva,
-        "pf": r.pf,
-        "dpf": r.dpf,
-        "phases": [
-            {"phase": f.phase, "p_kw": f.p_w / 1e3, "q1_kvar": f.q1_var / 1e3,
-             "s_kva": f.s_va / 1e3, "i_rms_a": f.i_rms_a, "i1_a": f.i1_a,
-             "thd_i_pct": f.thd_i_pct, "k_factor": f.k_factor, "f_hl": f.f_hl,
-             "harmonics_a": [abs(x) for x in f.i_h_a[1:]]}
-            for f in r.phases
-        ],
-        "neutral": {"i_rms_a": r.neutral_i_rms_a, "i1_a": r.neutral_i1_a,
-                    "i3_a": float(abs(r.neutral_i_h_a[3])),
-                    "harmonics_a": [abs(x) for x in r.neutral_i_h_a[1:]]},
-        "tdd_pct": r.tdd_pct,
-        "i_l_a": r.i_l_a,
-        "i_l_source": r.i_l_source,
-        "e_kwh_per_year": r.e_kwh_per_year,
-        "energy_cost_per_year": r.energy_cost,
-        "demand_cost_per_year": r.demand_cost,
-        "reactive_cost_per_year": r.reactive_cost,
-        "total_cost_per_year": r.total_cost_per_year,
-        "co2_kg_per_year": r.co2_kg_per_year,
-        "compliance": r.compliance,
-        "conductors": r.conductors,
-        "groups": r.groups.to_dict("records"),
-        "hourly": r.hourly.to_dict("records"),
-        "warnings": list(r.warnings),
-    }
-    return _clean(out)
-
-
 def render_fleet(d: dict, console: Console) -> None:
     """Terminal summary of a fleet report dict."""
     cur = d["site"]["currency"]
@@ -462,82 +278,6 @@ def render_fleet(d: dict, console: Console) -> None:
                             border_style="yellow", title_align="left"))
 
 
-# ----------------------------------------------------------------------------------
-# comparisons
-# ----------------------------------------------------------------------------------
-#: rows of the comparison summary: (label, key, significant digits, unit or currency flag)
-COMPARE_ROWS = (
-    ("per unit", None, 0, ""),
-    ("price", "unit_price", 3, "$"),
-    ("standby P", "standby_p_w", 3, "W"),
-    ("active P", "active_p_w", 3, "W"),
-    ("apparent S (max)", "s_va", 3, "VA"),
-    ("power factor", "pf", 3, ""),
-    ("THD of current", "thd_i_pct", 3, "%"),
-    ("per fleet", None, 0, ""),
-    ("units replaced", "replaced_units", 0, ""),
-    ("real P at peak", "fleet_p_kw", 4, "kW"),
-    ("apparent S at peak", "fleet_s_kva", 4, "kVA"),
-    ("Q1 at peak", "fleet_q1_kvar", 4, "kvar"),
-    ("worst phase I", "phase_i_rms_a", 3, "A"),
-    ("neutral I", "neutral_i_rms_a", 3, "A"),
-    ("energy per year", "e_kwh_per_year", 4, "kWh"),
-    ("running cost/year", "running_cost_per_year", 4, "$"),
-    ("CO2 per year", "co2_kg_per_year", 4, "kg"),
-    ("over the life", None, 0, ""),
-    ("purchase", "purchase_cost", 4, "$"),
-    ("lifetime cost", "lifetime_cost", 4, "$"),
-)
-
-
-def compare_to_dict(cmp) -> dict:
-    """JSON-ready report of a :class:`fleetpower.compare.Comparison`."""
-    from .compare import comparison_table
-
-    table = comparison_table(cmp)
-    designs = []
-    for c, row in zip(cmp.candidates, table.to_dict("records"), strict=True):
-        d = dict(row)
-        d["letter"] = chr(ord("A") + len(designs))
-        d["file"] = str(c.path)
-        d["safety"] = ("isolated" if c.design.is_isolated else
-                       "NOT isolated: output at mains potential")
-        d["failures"] = c.failures
-        d["unit_compliance"] = c.unit_compliance
-        d["fleet_compliance"] = c.fleet.compliance
-        d["conductors"] = c.fleet.conductors
-        d["lifetime_by_year"] = [
-            {"year": int(y), "cost": r.cost, "cost_cumulative_discounted":
-             r.cost_cumulative_discounted}
-            for y, r in c.lifetime.iterrows()
-        ]
-        d["groups"] = c.fleet.groups.to_dict("records")
-        designs.append(d)
-    return _clean({
-        "fleet": cmp.fleet_name,
-        "file": cmp.fleet_file,
-        "currency": cmp.currency,
-        "service_life_years": cmp.years,
-        "discount_rate": cmp.rate,
-        "energy_escalation": cmp.escalation,
-        "designs": designs,
-        "paybacks": cmp.paybacks,
-        "recommendation": cmp.recommendation,
-        "caution": (None if all(c.design.is_isolated for c in cmp.candidates)
-                    else "Non-isolated candidates put everything on their output at mains "
-                         "potential; enclose them fully and follow local codes and licensed "
-                         "practice."),
-    })
-
-
-def _cell(d: dict, key: str, digits: int, unit: str, currency: str) -> str:
-    v = d[key]
-    if key == "replaced_units":
-        return f"{int(v):,}"
-    unit = currency if unit == "$" else unit
-    return fmt(v, digits, unit)
-
-
 def render_compare(d: dict, console: Console) -> None:
     """Terminal summary of a comparison; readable at 80 columns and without colour."""
     cur = d["currency"]
@@ -560,7 +300,7 @@ def render_compare(d: dict, console: Console) -> None:
         if key is None:
             t.add_row(Text(label, style="bold underline"), *[""] * len(d["designs"]))
             continue
-        t.add_row(label, *[_cell(x, key, digits, unit, cur) for x in d["designs"]])
+        t.add_row(label, *[compare_cell(x, key, digits, unit, cur) for x in d["designs"]])
     t.add_row("failed checks", *[str(x["failed_checks"]) for x in d["designs"]])
     t.add_row("verdict", *[Text("FAILS" if x["failed_checks"] else "passes",
                                 style="bold red" if x["failed_checks"] else "green")
@@ -582,32 +322,4 @@ def render_compare(d: dict, console: Console) -> None:
                         title_align="left", box=box.ROUNDED))
 
 
-def compare_markdown(d: dict) -> str:
-    """A report a buyer can paste into a tender file (GitHub-flavoured Markdown)."""
-    cur = d["currency"]
-    lines = [f"# {d['fleet']}: supply options compared", "",
-             f"Service life {d['service_life_years']} years, discount rate "
-             f"{100 * d['discount_rate']:.1f} %, energy price escalation "
-             f"{100 * d['energy_escalation']:.1f} % per year. Figures from fleetpower "
-             "simulations of each design on the same fleet, phases, profiles and tariff.", "",
-             "| | " + " | ".join(f"{x['letter']}: {x['name']}" for x in d["designs"]) + " |",
-             "|---|" + "---:|" * len(d["designs"])]
-    for label, key, digits, unit in COMPARE_ROWS:
-        if key is None:
-            lines.append(f"| **{label}** |" + " |" * len(d["designs"]))
-            continue
-        lines.append(f"| {label} | " + " | ".join(_cell(x, key, digits, unit, cur)
-                                                 for x in d["designs"]) + " |")
-    lines.append("| safety | " + " | ".join(x["safety"] for x in d["designs"]) + " |")
-    lines.append("| failed checks | " + " | ".join(
-        (", ".join(x["failures"]) or "none") for x in d["designs"]) + " |")
-    lines += ["", "## Recommendation", "", d["recommendation"], ""]
-    if d["paybacks"]:
-        lines += ["## Payback", ""] + [f"- {p['reason']}" for p in d["paybacks"]] + [""]
-    lines += ["## What drives the difference", ""] + \
-        [f"- {x['letter']}: {x['driver']}" for x in d["designs"]] + [""]
-    if d.get("caution"):
-        lines += ["## Safety", "", d["caution"], ""]
-    lines += ["Limit verdicts use tables recorded in fleetpower's data/limits/ (mostly from "
-              "memory); they are an engineering aid, not a certification.", ""]
-    return "\n".join(lines)
+__all__ = ["render_unit", "render_fleet", "render_compare", "VERDICT_MARK", "VERDICT_STYLE"]

@@ -1,0 +1,42 @@
+"""Markdown rendering of a comparison report (a document a buyer can paste into a tender).
+
+Owns: the Markdown layout. May import ``report.model`` only; it computes nothing.
+"""
+
+from __future__ import annotations
+
+from .model import COMPARE_ROWS, compare_cell
+
+
+def compare_markdown(d: dict) -> str:
+    """A report a buyer can paste into a tender file (GitHub-flavoured Markdown)."""
+    cur = d["currency"]
+    lines = [f"# {d['fleet']}: supply options compared", "",
+             f"Service life {d['service_life_years']} years, discount rate "
+             f"{100 * d['discount_rate']:.1f} %, energy price escalation "
+             f"{100 * d['energy_escalation']:.1f} % per year. Figures from fleetpower "
+             "simulations of each design on the same fleet, phases, profiles and tariff.", "",
+             "| | " + " | ".join(f"{x['letter']}: {x['name']}" for x in d["designs"]) + " |",
+             "|---|" + "---:|" * len(d["designs"])]
+    for label, key, digits, unit in COMPARE_ROWS:
+        if key is None:
+            lines.append(f"| **{label}** |" + " |" * len(d["designs"]))
+            continue
+        lines.append(f"| {label} | " + " | ".join(compare_cell(x, key, digits, unit, cur)
+                                                 for x in d["designs"]) + " |")
+    lines.append("| safety | " + " | ".join(x["safety"] for x in d["designs"]) + " |")
+    lines.append("| failed checks | " + " | ".join(
+        (", ".join(x["failures"]) or "none") for x in d["designs"]) + " |")
+    lines += ["", "## Recommendation", "", d["recommendation"], ""]
+    if d["paybacks"]:
+        lines += ["## Payback", ""] + [f"- {p['reason']}" for p in d["paybacks"]] + [""]
+    lines += ["## What drives the difference", ""] + \
+        [f"- {x['letter']}: {x['driver']}" for x in d["designs"]] + [""]
+    if d.get("caution"):
+        lines += ["## Safety", "", d["caution"], ""]
+    lines += ["Limit verdicts use tables recorded in fleetpower's data/limits/ (mostly from "
+              "memory); they are an engineering aid, not a certification.", ""]
+    return "\n".join(lines)
+
+
+__all__ = ["compare_markdown"]
