@@ -31,7 +31,7 @@ import numpy as np
 REPO = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(REPO))
 
-import fleetpower.fleet as fleet_module  # noqa: E402
+from fleetpower import simulate  # noqa: E402
 from fleetpower.fleet import evaluate_fleet, unit_catalogue  # noqa: E402
 from fleetpower.io.fleet_file import load_fleet  # noqa: E402
 
@@ -172,7 +172,7 @@ def scaled(spec, factor: int):
 
 def simulate_fresh(designs) -> tuple[dict, float]:
     """``unit_catalogue`` from an empty in-process cache; (catalogue, seconds)."""
-    fleet_module._CATALOGUE_CACHE.clear()
+    simulate.CACHE.clear()
     t0 = time.perf_counter()
     cat = unit_catalogue(designs)
     return cat, time.perf_counter() - t0

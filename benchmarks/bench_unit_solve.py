@@ -3,8 +3,9 @@
 Run from the repository root:  python benchmarks/bench_unit_solve.py
 
 Measures, in one process (numba warmed first):
-  * fleetpower.supply.simulate(design, [state])  -- the whole per-state path;
-  * fleetpower.engine.solver.solve_periodic on one row from fleetpower.supply.circuit_rows;
+  * fleetpower.simulate.run([Case(design, state)], cache=None)  -- the whole per-state
+    path, uncached;
+  * fleetpower.engine.solver.solve_periodic on one row from fleetpower.simulate.circuit_rows;
   * the same rows for a batch of 64 variants (per-variant cost);
   * tests/reference_circuits.simulate_reference (Radau, rtol 1e-9, from t = 0 until the
     line current repeats to 1e-5), which reaches the same accuracy as the engine: the
@@ -26,7 +27,7 @@ sys.path.insert(0, str(ROOT / "tests"))
 
 import reference_circuits as rc  # noqa: E402
 
-from fleetpower import supply  # noqa: E402
+from fleetpower import simulate as sim  # noqa: E402
 from fleetpower.engine import layout, solver  # noqa: E402
 
 TARGET_MS = 20.0
@@ -56,11 +57,13 @@ def main() -> int:
     all_ok = True
     for key, state in CASES:
         design = rc.design(key)
-        p, x0 = supply.circuit_rows(design, state)
+        p, x0 = sim.circuit_rows(design, state)
         # warm numba (compilation or cache load) and the code paths once
-        supply.simulate(design, [state])
+        sim.run([sim.Case(design, state)], cache=None)
         solver.solve_periodic(p[None, :], x0[None, :])
-        t_sim = median_ms(lambda d=design, s=state: supply.simulate(d, [s]), REPEATS)
+        t_sim = median_ms(
+            lambda d=design, s=state: sim.run([sim.Case(d, s)], cache=None), REPEATS
+        )
         t_raw = median_ms(
             lambda p=p, x0=x0: solver.solve_periodic(p[None, :], x0[None, :]), REPEATS
         )
@@ -68,11 +71,11 @@ def main() -> int:
         rows, x0s = [], []
         for frac in np.linspace(0.5, 1.0, BATCH):
             if design.is_dropper:
-                pv, xv = supply.circuit_rows(
+                pv, xv = sim.circuit_rows(
                     design, state, load_a=frac * design.load_current_a(state)
                 )
             else:
-                pv, xv = supply.circuit_rows(design, state)
+                pv, xv = sim.circuit_rows(design, state)
                 pv = pv.copy()
                 pv[layout.param_index("p_converter_in_w")] *= frac
             rows.append(pv)

@@ -16,8 +16,8 @@ __version__ = "0.1.0"
 _EXPORTS = {
     "load_design": "fleetpower.io.design_file",
     "Design": "fleetpower.io.design_file",
-    "analyse_unit": "fleetpower.supply",
-    "simulate": "fleetpower.supply",
+    "analyse_unit": "fleetpower.unit",
+    "simulate": "fleetpower.simulate",
     "power_quality": "fleetpower.pq.ieee1459",
     "load_fleet": "fleetpower.io.fleet_file",
     "evaluate_fleet": "fleetpower.fleet",

@@ -26,7 +26,7 @@ def _status(message: str):
 def cmd_unit(args) -> int:
     from .io.design_file import load_design
     from .report import render_unit, unit_to_dict
-    from .supply import analyse_unit
+    from .unit import analyse_unit
 
     design = load_design(args.design)
     if args.limits:  # read the user's limit file before the (longer) solve
@@ -40,22 +40,13 @@ def cmd_unit(args) -> int:
         raise InputError(args.design, "--state",
                          f"unknown state {args.state!r}{suggest(args.state, design.states)}")
     with _status(f"solving {design.name} to periodic steady state"):
-        analysis = analyse_unit(design, states)
-        extra = _compliance(design, analysis, args)
-        if extra is not None:
-            analysis.extra["compliance"] = extra
+        analysis = analyse_unit(design, states, limits_file=args.limits)
     report = unit_to_dict(analysis)
     if args.json:
         print(json.dumps(report, indent=2))
     else:
         render_unit(report, _console(args))
     return 0
-
-
-def _compliance(design, analysis, args):
-    from .limits.applicability import unit_compliance
-
-    return unit_compliance(design, analysis, limits_file=getattr(args, "limits", None))
 
 
 def cmd_limits(args) -> int:

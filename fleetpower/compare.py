@@ -19,8 +19,8 @@ from .errors import InputError
 from .fleet import FleetResult, evaluate_fleet, unit_catalogue
 from .io.design_file import Design, load_design
 from .io.fleet_file import FleetSpec, load_fleet
-from .limits.applicability import lightest_state, rated_state, unit_compliance
-from .supply import UnitAnalysis, analyse_unit
+from .limits.applicability import lightest_state, rated_state
+from .unit import UnitAnalysis, analyse_unit
 
 DEFAULT_YEARS = 10
 DEFAULT_RATE = 0.05
@@ -81,9 +81,7 @@ def replace_role(spec: FleetSpec, path: Path, design: Design) -> tuple[FleetSpec
     if not design.role:
         raise InputError(design.source, "role", "a candidate design needs a role naming "
                          "which of the fleet's designs it replaces")
-    site_mains = design.mains.model_copy(update={"voltage": spec.site.v_ln_v,
-                                                 "frequency": spec.site.f_hz})
-    on_site = design.model_copy(update={"mains": site_mains})
+    on_site = design.on_mains(spec.site.v_ln_v, spec.site.f_hz)
     groups, replaced = [], 0
     for g in spec.groups:
         if spec.designs[g.design_path].role == design.role:
@@ -167,7 +165,7 @@ def compare(
         if progress:
             progress(k + 1, len(design_paths), design.name)
         unit = analyse_unit(on_site)
-        uc = unit_compliance(on_site, unit)
+        uc = list(unit.compliance)
         result = evaluate_fleet(new_spec, unit_catalogue(new_spec.designs))
         price = design.unit_price
         if price is None:

@@ -1,7 +1,8 @@
 """Fleets: many units of several designs on a site's phases, over a day, and their cost.
 
 Data flow: fleet file -> :class:`~fleetpower.io.fleet_file.FleetSpec` (validated groups, site, tariff) ->
-each distinct (design, state) simulated once on the site's mains (:func:`unit_catalogue`)
+each distinct (design, state) solved once on the site's mains (:func:`unit_catalogue`, through the
+content-keyed cache of :mod:`fleetpower.simulate`)
 -> hourly occupancy tensor ``W[hour, phase, design-state]`` (units in each state per hour)
 -> per-phase spectra ``W @ I[design-state, h]`` -> neutral, totals, energy, cost, limits.
 
@@ -15,7 +16,6 @@ spectrum referred to its own voltage and rotated into L1's frame for the neutral
 
 from __future__ import annotations
 
-import hashlib
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -29,8 +29,8 @@ from .io.fleet_file import HOURS, FleetSpec
 from .pq.derating import conductor_loading, harmonic_loss_factor, k_factor, tdd_pct
 from .pq.ieee1459 import power_totals
 from .pq.polyphase import neutral_current, sum_iec61000_3_6
-from .pq.spectrum import H_MAX, phasors_vs_voltage, thd_pct
-from .supply import simulate
+from .pq.spectrum import H_MAX, thd_pct
+from .simulate import Case, StateResult, run
 
 DAYS_PER_YEAR = 365.0
 MONTHS_PER_YEAR = 12
@@ -39,42 +39,21 @@ MONTHS_PER_YEAR = 12
 # ----------------------------------------------------------------------------------
 # unit catalogue: every distinct (design, state) simulated once
 # ----------------------------------------------------------------------------------
-@dataclass(frozen=True)
-class UnitFigures:
-    """What the fleet needs of one (design, state) on the site's mains."""
+def unit_catalogue(designs: dict[Path, Design], progress=None) -> dict[Path, dict[str, StateResult]]:
+    """Every state of every design on the site's mains, solved in one batch.
 
-    design: str
-    state: str
-    p_w: float
-    q1_var: float
-    s_va: float
-    i_rms_a: float
-    i_h_a: np.ndarray  # full spectrum, index = order, phase vs the unit's own voltage
-
-
-def _key(path: Path, design: Design) -> str:
-    blob = path.read_bytes() + repr((design.mains.voltage, design.mains.frequency)).encode()
-    return hashlib.sha256(blob).hexdigest()[:16]
-
-
-_CATALOGUE_CACHE: dict[str, dict[str, UnitFigures]] = {}
-
-
-def unit_catalogue(designs: dict[Path, Design], progress=None) -> dict[Path, dict[str, UnitFigures]]:
-    """Simulate every state of every design once (cached in-process by file content)."""
-    out = {}
-    for k, (path, d) in enumerate(designs.items()):
-        key = _key(path, d)
-        if key not in _CATALOGUE_CACHE:
-            res = simulate(d)
-            _CATALOGUE_CACHE[key] = {
-                r.state: UnitFigures(d.name, r.state, r.pq.p_w, r.pq.q1_var, r.pq.s_va,
-                                     r.pq.i_rms_a, phasors_vs_voltage(r.v_v, r.i_a)[1])
-                for r in res
-            }
-        out[path] = _CATALOGUE_CACHE[key]
+    Through :func:`fleetpower.simulate.run`, so a design already solved (same validated
+    content, same mains) is taken from its cache instead of being solved again.
+    """
+    items = list(designs.items())
+    results = run([Case(d, s) for _, d in items for s in d.states])
+    out: dict[Path, dict[str, StateResult]] = {}
+    k = 0
+    for n, (path, d) in enumerate(items):
+        out[path] = {s: results[k + j] for j, s in enumerate(d.states)}
+        k += len(d.states)
         if progress:
-            progress(k + 1, len(designs), d.name)
+            progress(n + 1, len(items), d.name)
     return out
 
 
@@ -174,8 +153,8 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         for p, n in split.items():
             w[:, phases.index(p), cols] += n * g.occupancy
         figs = [cat[g.design_path][s] for s in g.states]
-        p_state = np.array([f.p_w for f in figs])
-        q_state = np.array([f.q1_var for f in figs])
+        p_state = np.array([f.pq.p_w for f in figs])
+        q_state = np.array([f.pq.q1_var for f in figs])
         p_unit_t = g.occupancy @ p_state
         e_day_kwh = g.count * p_unit_t.sum() / 1e3
         cost_day = g.count * float((p_unit_t / 1e3) @ tariff.energy_price_by_hour)
@@ -184,16 +163,17 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
             "design_file": str(g.design_path.name), "count": g.count, "phase": g.phase,
             "p_unit_mean_w": float(p_unit_t.mean()),
             "q1_unit_mean_var": float((g.occupancy @ q_state).mean()),
-            "s_unit_max_va": float(max(f.s_va for f in figs)),
+            "s_unit_max_va": float(max(f.pq.s_va for f in figs)),
             "e_kwh_per_year": e_day_kwh * DAYS_PER_YEAR,
             "energy_cost_per_year": cost_day * DAYS_PER_YEAR,
         })
         if g.peak_occupancy is not None:
             w_peak_extra.append((g, split, cols))
-    p_k = np.array([cat[pa][s].p_w for pa, s in keys])
-    q_k = np.array([cat[pa][s].q1_var for pa, s in keys])
-    n_h = min(len(cat[pa][s].i_h_a) for pa, s in keys)
-    i_k = np.array([cat[pa][s].i_h_a[:n_h] for pa, s in keys])  # (n_k, n_h)
+    p_k = np.array([cat[pa][s].pq.p_w for pa, s in keys])
+    q_k = np.array([cat[pa][s].pq.q1_var for pa, s in keys])
+    spectra_k = {key: cat[key[0]][key[1]].i_h_vs_v_a for key in keys}
+    n_h = min(len(v) for v in spectra_k.values())
+    i_k = np.array([spectra_k[key][:n_h] for key in keys])  # (n_k, n_h)
 
     p_tp = w @ p_k  # (24, n_p)
     q_tp = w @ q_k

@@ -4,7 +4,7 @@ Written from the physical description of the topologies (the docstrings of
 :mod:`fleetpower.engine.circuits`, :mod:`fleetpower.engine.devices` and, for the transformer, of
 ``fleetpower.topologies.mains_transformer.transformer_model``), **not** from the engine's code:
 nothing here imports ``fleetpower.engine.circuits``, ``fleetpower.engine.solver`` or
-``fleetpower.supply``. Only the datasheet-to-model helpers of :mod:`fleetpower.engine.devices`
+``fleetpower.simulate``. Only the datasheet-to-model helpers of :mod:`fleetpower.engine.devices`
 (``diode_saturation_current_a``, ``zener_knee`` and the physical constants) are used,
 because they define what a datasheet figure means; the device currents themselves are
 written again below.

@@ -21,7 +21,7 @@ from fleetpower.engine import devices as dv
 from fleetpower.engine import layout
 from fleetpower.engine.solver import jacobian_fd, solve_periodic
 from fleetpower.io.design_file import load_design
-from fleetpower.supply import circuit_rows, simulate
+from fleetpower.simulate import circuit_rows, simulate
 
 EXAMPLES = sorted(p.name for p in examples_dir().glob("*.toml") if "fleet" not in p.name
                   and p.read_text().find("topology") >= 0)

@@ -1,6 +1,6 @@
 """Acceptance of the steady-state engine against an independent brute-force model.
 
-The engine (shooting-Newton, trapezoidal rule, 2048 samples/cycle; fleetpower.supply
+The engine (shooting-Newton, trapezoidal rule, 2048 samples/cycle; fleetpower.simulate
 and fleetpower.engine.solver) is compared with ``tests/reference_circuits.py``: the same
 circuits written again from their physical description, integrated from t = 0 with
 scipy's stiff Radau integrator (rtol 1e-9) until the line current repeats, sampled at
@@ -17,7 +17,7 @@ import pytest
 import reference_circuits as rc
 import tolerances as tol
 
-from fleetpower import supply
+from fleetpower import simulate, unit
 from fleetpower.engine.devices import diode_saturation_current_a
 from fleetpower.io.design_file import design_from_dict
 from fleetpower.topologies.mains_transformer import transformer_model
@@ -44,7 +44,7 @@ def design(key):
 
 @functools.cache
 def engine(key, state):
-    (res,) = supply.simulate(design(key), [state])
+    (res,) = simulate.simulate(design(key), [state])
     return res
 
 
@@ -143,7 +143,7 @@ def test_half_wave_resistive_dropper_draws_dc():
 
 def test_reactance_and_rule_of_thumb_for_3u3_at_60hz():
     d = design("dropper-half-wave")  # 3.3 uF, 120 V, 60 Hz
-    hand = supply.hand_estimate(d, simulated_max_a=0.0)
+    hand = unit.hand_estimate(d, simulated_max_a=0.0)
     # X_C of 3.3 uF at 60 Hz is about 803 ohm (common practice, no source)
     assert hand.xc_ohm == pytest.approx(803.0, abs=1.0 + tol.XC_QUOTED_OHM)
     # the half-wave rule of thumb I = V / (2 X_C) gives 74.6 mA (common practice, no source)
@@ -166,8 +166,8 @@ def test_half_wave_deliverable_current_bounds():
     """
     d = design("dropper-half-wave")
     parts, mains, out = d.parts, d.mains, d.output
-    simulated = supply.max_deliverable_current_a(d)
-    hand = supply.hand_estimate(d, simulated)
+    simulated = unit.max_deliverable_current_a(d)
+    hand = unit.hand_estimate(d, simulated)
     f, cap = mains.frequency, parts.series_capacitance
     vpk = math.sqrt(2.0) * mains.voltage
     pump = f * cap * (2.0 * vpk - parts.zener_voltage - parts.diode.forward_voltage)
@@ -262,7 +262,7 @@ def test_transformer_no_load_hand_check():
     table["states"] = {"off": "0 mA"}
     table["rated_state"] = "off"
     d = design_from_dict(table)
-    (eng,) = supply.simulate(d)
+    (eng,) = simulate.simulate(d)
     parts, v = d.parts, d.mains.voltage
     assert parts.no_load_power == 0.45 and v == 230.0  # the figures of the hand check
     i_s = diode_saturation_current_a(parts.diode.forward_voltage, parts.diode.forward_test_current)

@@ -216,9 +216,9 @@ def _hand_hourly_w(cat, counts):
     for n, raw in zip(counts, _MIXED, strict=True):
         (path,) = [p for p in cat if p.stem == raw["design"]]
         if "profile" in raw:
-            p_t += n * np.array([cat[path][s].p_w for s in raw["profile"]])
+            p_t += n * np.array([cat[path][s].pq.p_w for s in raw["profile"]])
         else:  # hours per state: that fraction of the units all day
-            p_t += n * sum(cat[path][s].p_w * h / 24 for s, h in raw["hours"].items())
+            p_t += n * sum(cat[path][s].pq.p_w * h / 24 for s, h in raw["hours"].items())
     return p_t
 
 
@@ -254,10 +254,10 @@ def test_n_units_draw_n_times_one_units_phasors(run_fleet):
     u = unit(cat, DROPPER, "active")
     l2_one, l2_many = one.phases[1], many.phases[1]
     assert np.allclose(l2_many.i_h_a, n * l2_one.i_h_a, rtol=REL_EXACT, atol=0)
-    assert np.allclose(l2_one.i_h_a, u.i_h_a[: l2_one.i_h_a.size], rtol=REL_EXACT)
-    assert l2_one.i_rms_a == pytest.approx(u.i_rms_a, rel=REL_PARSEVAL)
-    assert l2_many.i_rms_a == pytest.approx(n * u.i_rms_a, rel=REL_PARSEVAL)
-    assert l2_many.p_w == pytest.approx(n * u.p_w, rel=REL_EXACT)
+    assert np.allclose(l2_one.i_h_a, u.i_h_vs_v_a[: l2_one.i_h_a.size], rtol=REL_EXACT)
+    assert l2_one.i_rms_a == pytest.approx(u.pq.i_rms_a, rel=REL_PARSEVAL)
+    assert l2_many.i_rms_a == pytest.approx(n * u.pq.i_rms_a, rel=REL_PARSEVAL)
+    assert l2_many.p_w == pytest.approx(n * u.pq.p_w, rel=REL_EXACT)
 
 
 def test_order_of_groups_changes_nothing(tmp_path, designs):
@@ -356,7 +356,7 @@ def test_diversity_lowers_the_coincident_peak(run_fleet):
     g = {"design": SMPS, "count": n, "phase": "L1", "hours": {"active": 3, "idle": 21}}
     full, d_full, cat = run_fleet([{**g, "diversity": 1.0}])
     half, d_half, _ = run_fleet([{**g, "diversity": 0.5}])
-    pa, pi = unit(cat, SMPS, "active").p_w, unit(cat, SMPS, "idle").p_w
+    pa, pi = unit(cat, SMPS, "active").pq.p_w, unit(cat, SMPS, "idle").pq.p_w
     assert pa > pi
     assert d_full["p_kw"] == pytest.approx(n * pa / 1e3, rel=REL_EXACT)
     assert d_half["p_kw"] == pytest.approx(n * (0.5 * pa + 0.5 * pi) / 1e3, rel=REL_EXACT)
@@ -380,7 +380,7 @@ def test_time_of_use_tariff_cost_by_hand(run_fleet):
     _, d, cat = run_fleet(
         [{"design": SMPS, "count": n, "phase": "balanced", "profile": profile}], tariff=tariff
     )
-    p_w = {s: unit(cat, SMPS, s).p_w for s in ("active", "idle")}
+    p_w = {s: unit(cat, SMPS, s).pq.p_w for s in ("active", "idle")}
     kwh_t = [n * p_w[s] / 1e3 for s in profile]
     cost_hand = 365 * sum(e * c for e, c in zip(kwh_t, prices, strict=True))
     assert d["energy_cost_per_year"] == pytest.approx(cost_hand, rel=REL_EXACT)

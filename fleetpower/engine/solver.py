@@ -25,7 +25,7 @@ The samples are uniform over exactly one period, so an FFT of them is coherent.
 
 The trapezoidal rule is second order, A-stable, and conserves the energy of a capacitor
 over a period exactly in its own discrete inner product, which is why the energy
-balance of :mod:`fleetpower.supply` closes to a few parts per million.
+balance of :mod:`fleetpower.simulate` closes to a few parts per million.
 
 Owns: the one-cycle integration and the shooting iteration. Knows nothing of
 topologies: everything it needs per variant (the reservoir's physical upper bound

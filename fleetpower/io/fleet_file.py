@@ -244,8 +244,7 @@ def _design(file, where, ref, base: Path, site: Site, cache: dict) -> tuple[Path
         raise InputError(file, f"{where}design", f"design file not found: {ref}")
     if path not in cache:
         d = load_design(path)
-        site_mains = d.mains.model_copy(update={"voltage": site.v_ln_v, "frequency": site.f_hz})
-        cache[path] = d.model_copy(update={"mains": site_mains})
+        cache[path] = d.on_mains(site.v_ln_v, site.f_hz)
         cache[(path, "nominal")] = d.mains
     return path, cache[path]
 

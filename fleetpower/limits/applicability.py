@@ -1,6 +1,6 @@
 """Which published limits apply to one supply, evaluated on its simulated figures.
 
-This joins the engine's metrics (:mod:`fleetpower.supply`) with the limit tables and
+This joins the engine's metrics (:mod:`fleetpower.unit`) with the limit tables and
 rules (:mod:`fleetpower.limits.tables`, :mod:`fleetpower.limits.rules`). The tool reports
 margins against the tables it ships; it does not certify anything, and defers to the
 standards' own texts, local codes and licensed practice.
@@ -12,12 +12,16 @@ the rest of ``limits``, ``io`` and the unit analysis; nothing of fleet, compare 
 from __future__ import annotations
 
 from dataclasses import asdict
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from .. import limits as L
 from ..io.design_file import ConverterOutput, Design
-from ..supply import UnitAnalysis, simulate_cases
+from ..simulate import simulate_cases
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ..unit import UnitAnalysis
 
 #: load fractions of the average-active-efficiency test (EU 2019/1782, US Level VI)
 EPS_LOAD_FRACTIONS = (0.25, 0.50, 0.75, 1.00)
@@ -82,7 +86,7 @@ def unit_compliance(design: Design, analysis: UnitAnalysis, limits_file=None) ->
     ----------
     design : Design
     analysis : UnitAnalysis
-        Result of :func:`fleetpower.supply.analyse_unit`.
+        Result of :func:`fleetpower.unit.analyse_unit`.
     limits_file : str or Path, optional
         A user limit file (same format as ``data/limits/``) evaluated in addition.
 
@@ -119,7 +123,7 @@ def unit_compliance(design: Design, analysis: UnitAnalysis, limits_file=None) ->
             rows.append(d)
     # 3. external power supplies
     if isinstance(design.output, ConverterOutput):
-        no_load, avg, _ = eps_figures(design)
+        no_load, avg, _ = analysis.eps if analysis.eps is not None else eps_figures(design)
         low_v = design.output.voltage < 6.0
         for region in ("eu", "us"):
             rows += _rows(L.evaluate_eps(no_load, avg, design.output.rated_power,

@@ -18,7 +18,8 @@ import numpy as np
 
 from ..errors import FleetpowerError
 from ..pq.spectrum import harmonic_table
-from ..supply import StateResult, UnitAnalysis
+from ..simulate import StateResult
+from ..unit import UnitAnalysis
 
 
 def _clean(x: Any) -> Any:
@@ -122,8 +123,8 @@ def unit_to_dict(u: UnitAnalysis) -> dict:
             "charge_pump_i_dc_a": h.charge_pump_a, "simulated_max_i_dc_a": h.simulated_max_a,
             "explanation": h.explanation,
         }
-    if "compliance" in u.extra:
-        out["compliance"] = u.extra["compliance"]
+    if u.compliance:
+        out["compliance"] = list(u.compliance)
     if len(u.states) == 1:
         for k, v in out["states"][0].items():
             out.setdefault(k, v)

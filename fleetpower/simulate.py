@@ -1,0 +1,320 @@
+"""Simulation: cases from many designs -> one batch -> results, with a cache on content.
+
+A :class:`Case` is (design, state, mains factor, output-current override). :func:`run`
+takes cases of any number of designs, looks each up in a :class:`ResultCache` keyed on the
+design's VALIDATED CONTENT (a hash of its canonical JSON, not of any file) plus the case,
+packs the rest into engine rows through their topologies, hands them to an executor as one
+batch and returns one :class:`StateResult` per case, in order. ``unit``, ``fleet``,
+``compare`` and the EPS figures all go through here, so a design changed in memory gets its
+own result and the same design twice costs one solve.
+
+The executor is the seam for running batches elsewhere: any callable
+``run(func, items, on_done=None) -> list`` of :mod:`fleetpower.executors`; each item is one
+:class:`Batch` of engine rows and ``func`` is :func:`solve_batch` (a module-level function,
+so it pickles to a cluster's workers).
+
+Owns: :class:`Case`, :class:`StateResult`, :class:`Balance`, :class:`ResultCache`, the
+default cache and :func:`run`. May import the engine, the topology registry (through
+:class:`~fleetpower.io.design_file.Design`), ``pq`` and ``executors``; never ``unit``,
+``fleet``, ``compare``, limits or reports.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from .engine import layout
+from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, SteadyState, solve_periodic
+from .errors import InputError, suggest
+from .executors import local_executor
+from .io.design_file import Design
+from .pq.ieee1459 import PowerQuality, power_quality
+from .pq.spectrum import phasors_vs_voltage
+
+
+@dataclass(frozen=True)
+class Case:
+    """One thing to solve: a design in one state at one mains voltage.
+
+    ``load_a`` overrides the state's output current (the deliverable-current search and
+    the EPS load points use it); ``mains_factor`` multiplies the design's mains voltage.
+    """
+
+    design: Design
+    state: str
+    mains_factor: float = 1.0
+    load_a: float | None = None
+
+
+def design_key(design: Design) -> str:
+    """Hash of a design's validated content (its canonical JSON; the file path left out)."""
+    blob = design.model_dump_json(exclude={"source"}).encode()
+    return hashlib.sha256(blob).hexdigest()
+
+
+def case_key(case: Case, samples_per_cycle: int) -> tuple:
+    return (design_key(case.design), case.state, float(case.mains_factor),
+            None if case.load_a is None else float(case.load_a), int(samples_per_cycle))
+
+
+@dataclass(frozen=True)
+class Balance:
+    """Energy balance of one state: input = delivered + losses (+ storage, ~0) [W]."""
+
+    p_in_w: float
+    delivered_w: float
+    losses_w: float
+    source_resistance_w: float
+    storage_w: float
+
+    @property
+    def residual_w(self) -> float:
+        return self.p_in_w - self.delivered_w - self.losses_w - self.source_resistance_w
+
+    @property
+    def residual_pct(self) -> float:
+        return 100.0 * self.residual_w / self.p_in_w if self.p_in_w else 0.0
+
+
+@dataclass(frozen=True)
+class StateResult:
+    """Periodic steady state of one (design, state) at one mains voltage."""
+
+    state: str
+    mains_factor: float
+    load_a: float
+    t_s: np.ndarray
+    v_v: np.ndarray
+    i_a: np.ndarray
+    pq: PowerQuality
+    losses_w: dict[str, float]
+    balance: Balance
+    v_dc_v: float
+    v_dc_min_v: float
+    ripple_v_pp: float
+    i_dc_a: float  # mean current the load actually receives [A] (less than asked when the
+    # regulator drops out)
+    v_out_min_v: float
+    i_zener_reverse_a: float
+    p_zener_w: float
+    p_series_resistor_w: float
+    p_bleeder_w: float
+    v_cap_peak_v: float
+    v_cap_rms_v: float
+    in_regulation: bool
+    iterations: int
+
+    @property
+    def i_h_vs_v_a(self) -> np.ndarray:
+        """Current phasors [A] by harmonic order, phase against the unit's own voltage."""
+        return phasors_vs_voltage(self.v_v, self.i_a)[1]
+
+    def waveform(self) -> pd.DataFrame:
+        """One cycle of source voltage [V] and line current [A]."""
+        return pd.DataFrame({"t_s": self.t_s, "v_v": self.v_v, "i_a": self.i_a})
+
+
+def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
+    idx = {name: k for k, name in enumerate(layout.PROBES)}
+    results = []
+    for b, case in enumerate(cases):
+        design, state, factor = case.design, case.state, case.mains_factor
+        load_a = design.load_current_a(state) if case.load_a is None else case.load_a
+        pr = sol.probes[b]
+        mean = pr.mean(axis=0)
+        v = pr[:, idx["v_source_v"]]
+        i = pr[:, idx["i_line_a"]]
+        pq = power_quality(v, i)
+        labels = design.topology_impl.loss_labels()
+        losses = {
+            labels[k]: float(mean[idx[k]])
+            for k in layout.LOSS_PROBES
+            if abs(mean[idx[k]]) > 0.0 or k in ("p_series_resistor_w", "p_rectifier_w")
+        }
+        bal = Balance(
+            p_in_w=pq.p_w,
+            delivered_w=float(mean[idx["p_delivered_w"]]),
+            losses_w=float(sum(losses.values())),
+            source_resistance_w=float(mean[idx["p_source_resistance_w"]]),
+            storage_w=float(sum(mean[idx[k]] for k in layout.STORAGE_PROBES)),
+        )
+        vo = pr[:, idx["v_o_v"]]
+        v_out = pr[:, idx["v_out_v"]]
+        iz = pr[:, idx["i_zener_a"]]
+        if design.has_linear_regulator:
+            need = design.output.voltage + design.output.dropout
+            ok = bool(vo.min() >= need - 1e-9)
+            vcap = pr[:, idx["v_c1_v"]]
+            v_cap_peak = float(np.max(np.abs(vcap)))
+            v_cap_rms = float(np.sqrt(np.mean(vcap * vcap)))
+        else:
+            ok = bool(vo.min() >= design.output.undervoltage_lockout)
+            v_cap_peak = float(np.max(np.abs(v)))
+            v_cap_rms = float(np.sqrt(np.mean(v * v)))
+        results.append(
+            StateResult(
+                state=state,
+                mains_factor=factor,
+                load_a=load_a,
+                t_s=sol.t_s,
+                v_v=v,
+                i_a=i,
+                pq=pq,
+                losses_w=losses,
+                balance=bal,
+                v_dc_v=float(vo.mean()),
+                v_dc_min_v=float(vo.min()),
+                ripple_v_pp=float(vo.max() - vo.min()),
+                i_dc_a=(load_a * float(np.mean(v_out)) / design.output.voltage
+                        if design.has_linear_regulator else load_a),
+                v_out_min_v=float(v_out.min()),
+                i_zener_reverse_a=float(np.mean(np.clip(iz, 0.0, None))),
+                p_zener_w=float(mean[idx["p_zener_w"]]),
+                p_series_resistor_w=float(mean[idx["p_series_resistor_w"]]),
+                p_bleeder_w=float(mean[idx["p_bleeder_w"]]),
+                v_cap_peak_v=v_cap_peak,
+                v_cap_rms_v=v_cap_rms,
+                in_regulation=ok,
+                iterations=int(sol.iterations[b]),
+            )
+        )
+    return results
+
+
+
+class ResultCache:
+    """Results by case key, in process. ``solves`` counts cases actually solved."""
+
+    def __init__(self) -> None:
+        self._results: dict[tuple, StateResult] = {}
+        self.solves = 0
+        self.hits = 0
+
+    def get(self, key: tuple) -> StateResult | None:
+        r = self._results.get(key)
+        if r is not None:
+            self.hits += 1
+        return r
+
+    def put(self, key: tuple, result: StateResult) -> None:
+        self._results[key] = result
+
+    def clear(self) -> None:
+        self._results.clear()
+        self.solves = self.hits = 0
+
+    def __len__(self) -> int:
+        return len(self._results)
+
+
+#: the process-wide cache every caller shares unless it passes its own (or None)
+CACHE = ResultCache()
+
+
+@dataclass(frozen=True)
+class Batch:
+    """One executor work item: engine rows, initial guesses and their labels."""
+
+    params: np.ndarray  # (n, N_PARAMS)
+    x0: np.ndarray  # (n, N_STATES)
+    samples_per_cycle: int
+    labels: list[str]
+
+
+def solve_batch(batch: Batch) -> SteadyState:
+    """Solve one batch of engine rows (the function executors run)."""
+    return solve_periodic(batch.params, batch.x0, batch.samples_per_cycle, batch.labels)
+
+
+def circuit_rows(design: Design, state: str, mains_factor: float = 1.0,
+                 load_a: float | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Engine row and initial guess of one (design, state, mains, load) case."""
+    return engine_row(Case(design, state, mains_factor, load_a))
+
+
+def engine_row(case: Case) -> tuple[np.ndarray, np.ndarray]:
+    """Engine row and initial guess of one case (its topology packs them)."""
+    d = case.design
+    if case.state not in d.states:
+        raise InputError(d.source, "states",
+                         f"unknown state {case.state!r}{suggest(case.state, d.states)}")
+    return d.topology_impl.engine_row(d, case.state, case.mains_factor, case.load_a)
+
+
+def run(
+    cases: list[Case],
+    samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,
+    cache: ResultCache | None = CACHE,
+    executor=local_executor,
+) -> list[StateResult]:
+    """Solve cases (of any number of designs) in one batch; results in the order of cases.
+
+    Cases found in ``cache`` are not solved again; duplicates within ``cases`` are solved
+    once. ``executor`` runs the batch (:mod:`fleetpower.executors`).
+    """
+    keys = [case_key(c, samples_per_cycle) for c in cases]
+    out: list[StateResult | None] = [None] * len(cases)
+    todo: dict[tuple, list[int]] = {}
+    for k, key in enumerate(keys):
+        hit = cache.get(key) if cache is not None else None
+        if hit is not None:
+            out[k] = hit
+        else:
+            todo.setdefault(key, []).append(k)
+    if todo:
+        first = [idx[0] for idx in todo.values()]
+        rows, x0s = zip(*(engine_row(cases[k]) for k in first), strict=True)
+        labels = [f"{cases[k].design.name} / {cases[k].state} at "
+                  f"{cases[k].mains_factor:.2f}x mains" for k in first]
+        (sol,) = executor(solve_batch, [Batch(np.array(rows), np.array(x0s),
+                                              samples_per_cycle, labels)])
+        solved = _state_results([cases[k] for k in first], sol)
+        if cache is not None:
+            cache.solves += len(first)
+        for key, res in zip(todo, solved, strict=True):
+            if cache is not None:
+                cache.put(key, res)
+            for k in todo[key]:
+                out[k] = res
+    return out  # type: ignore[return-value]
+
+
+def simulate_cases(
+    design: Design,
+    cases: list[tuple[str, float, float | None]],
+    samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,
+) -> list[StateResult]:
+    """Solve (state, mains factor, output-current override or None) cases of one design."""
+    return run([Case(design, s, f, load) for s, f, load in cases], samples_per_cycle)
+
+
+def simulate(
+    design: Design,
+    states: list[str] | None = None,
+    mains_factors: tuple[float, ...] = (1.0,),
+    samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,
+) -> list[StateResult]:
+    """Simulate states of a design to periodic steady state, all in one batch.
+
+    Parameters
+    ----------
+    design : Design
+    states : list of str, optional
+        States to simulate (default: all, in file order).
+    mains_factors : tuple of float
+        Mains voltage multipliers; every state is solved at each.
+    samples_per_cycle : int
+        Samples (and integration steps) per mains cycle.
+
+    Returns
+    -------
+    list of StateResult
+        Ordered by mains factor, then state.
+    """
+    states = list(design.states) if states is None else list(states)
+    return simulate_cases(design, [(s, f, None) for f in mains_factors for s in states],
+                          samples_per_cycle)

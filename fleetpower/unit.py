@@ -1,0 +1,183 @@
+"""One supply, everything ``fleetpower unit`` reports: :func:`analyse_unit`.
+
+Data flows one way: :class:`~fleetpower.io.design_file.Design` -> cases solved by
+:func:`fleetpower.simulate.run` (states at nominal and +10 % mains, the deliverable-current
+search, the EPS load points) -> :class:`~fleetpower.simulate.StateResult` per state ->
+:class:`UnitAnalysis` with stresses (the topology's), warnings, the hand estimate, EPS
+figures and compliance rows.
+
+Owns: :class:`UnitAnalysis`, :func:`analyse_unit`, :func:`max_deliverable_current_a`.
+May import ``simulate``, ``topologies`` (through the design) and ``limits``; never
+``fleet``, ``compare`` or reports; no engine index.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError, suggest
+from .io.design_file import ConverterOutput, Design
+from .limits.applicability import eps_figures, unit_compliance
+from .simulate import Balance, StateResult, circuit_rows, simulate, simulate_cases  # noqa: F401
+from .topologies.base import (  # noqa: F401 (re-exported)
+    DISCHARGE_SETS,
+    INRUSH_RESISTOR_RANGE_OHM,
+    LOSS_LABELS,
+    STRESS_MAINS_FACTOR,
+    HandEstimate,
+    Stress,
+    discharge_rules,
+    discharge_time_s,
+)
+
+NON_ISOLATION_CAUTION = (
+    "NOT ISOLATED: a capacitive or resistive dropper connects its output directly to the "
+    "mains. Every part of the circuit, the output and anything wired to it sits at mains "
+    "potential and can kill. Enclose it fully, never connect it to earthed or "
+    "user-touchable equipment, do not probe it with an earthed oscilloscope, and follow "
+    "local electrical codes and licensed practice; this tool does not replace them."
+)
+
+
+# ----------------------------------------------------------------------------------
+# deliverable current and the hand estimate
+# ----------------------------------------------------------------------------------
+def max_deliverable_current_a(
+    design: Design, mains_factor: float = 1.0, rounds: int = 2, points: int = 12
+) -> float:
+    """Largest output current [A] a dropper sustains in regulation.
+
+    Found by bracketing: each round solves ``points`` loads in one batch and narrows to
+    the last load whose reservoir minimum stays above output voltage + dropout.
+    """
+    if not design.has_linear_regulator:
+        raise ValueError("only linear-regulator supplies have a current limit set by their parts")
+    state = next(iter(design.states))
+    hi = design.topology_impl.deliverable_ceiling_a(design)
+    lo = 0.0
+    for _ in range(rounds):
+        loads = np.linspace(lo, hi, points)
+        res = simulate_cases(design, [(state, mains_factor, float(x)) for x in loads])
+        ok = np.array([r.in_regulation for r in res])
+        if not ok[0]:
+            return 0.0
+        last = int(np.flatnonzero(ok)[-1])
+        if last == points - 1:
+            return float(loads[-1])
+        lo, hi = float(loads[last]), float(loads[last + 1])
+    return lo
+
+
+def hand_estimate(design: Design, simulated_max_a: float) -> HandEstimate | None:
+    """The topology's rule of thumb beside the simulated deliverable current (or None)."""
+    return design.topology_impl.hand_estimate(design, simulated_max_a)
+
+
+def stresses(design: Design, stressed: list[StateResult]) -> list[Stress]:
+    """Component stresses from the states simulated at +10 % mains (the topology's)."""
+    return design.topology_impl.stresses(design, stressed)
+
+
+# ----------------------------------------------------------------------------------
+# the whole unit
+# ----------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class UnitAnalysis:
+    """Everything ``fleetpower unit`` reports for one design."""
+
+    design: Design
+    states: list[StateResult]
+    stresses: list[Stress]
+    warnings: list[str]
+    caution: str | None
+    max_deliverable_a: float | None
+    hand: HandEstimate | None
+    #: no-load input power [W], average active efficiency [-], efficiencies at 25-100 %
+    #: (external power supplies only)
+    eps: tuple[float, float, list[float]] | None = None
+    #: rows against every applicable limit set (:func:`fleetpower.limits.applicability.unit_compliance`)
+    compliance: tuple[dict, ...] = ()
+
+    def summary(self) -> pd.DataFrame:
+        """One row per state: the headline power-quality figures with units in names."""
+        rows = []
+        for r in self.states:
+            q = r.pq
+            rows.append({
+                "state": r.state, "v_rms_v": q.v_rms_v, "i_rms_a": q.i_rms_a,
+                "i_peak_a": q.i_peak_a, "crest_factor": q.crest_factor, "p_w": q.p_w,
+                "s_va": q.s_va, "q1_var": q.q1_var, "dpf": q.dpf, "pf": q.pf,
+                "thd_i_pct": q.thd_i_pct, "v_dc_v": r.v_dc_v, "ripple_v_pp": r.ripple_v_pp,
+                "i_dc_a": r.i_dc_a,
+            })
+        return pd.DataFrame(rows)
+
+
+def analyse_unit(design: Design, states: list[str] | None = None,
+                 limits_file=None) -> UnitAnalysis:
+    """Simulate, analyse and stress-check one design (the library behind ``fleetpower unit``).
+
+    All requested states are solved at nominal mains and all states at +10 % mains (for
+    stresses) in one batch.
+    """
+    chosen = list(design.states) if states is None else list(states)
+    all_states = list(design.states)
+    for s in chosen:
+        if s not in design.states:
+            raise InputError(design.source, "--state",
+                             f"unknown state {s!r}{suggest(s, design.states)}")
+    results = simulate(design, all_states, (1.0, STRESS_MAINS_FACTOR))
+    nominal = [r for r in results if r.mains_factor == 1.0 and r.state in chosen]
+    stressed = [r for r in results if r.mains_factor != 1.0]
+    warnings: list[str] = []
+    max_a = None
+    hand = None
+    if design.has_linear_regulator:
+        if any(not r.in_regulation for r in nominal) or \
+                design.topology_impl.always_report_deliverable:
+            max_a = max_deliverable_current_a(design)
+        for r in nominal:
+            if not r.in_regulation:
+                warnings.append(
+                    f"state '{r.state}': the reservoir falls to {r.v_dc_min_v:.2f} V, below "
+                    f"output + dropout ({design.output.voltage + design.output.dropout:.2f} V);"
+                    f" the supply cannot deliver {r.load_a * 1e3:.1f} mA — the largest "
+                    f"load it holds in regulation is {max_a * 1e3:.1f} mA"
+                )
+        hand = hand_estimate(design, max_a) if max_a is not None else None
+    else:
+        for r in nominal:
+            if not r.in_regulation:
+                warnings.append(
+                    f"state '{r.state}': the bulk capacitor falls to {r.v_dc_min_v:.1f} V, "
+                    f"below the converter's lockout ({design.output.undervoltage_lockout:.1f} V)"
+                )
+    for r in nominal:
+        if abs(r.pq.i_dc_a) > 1e-3 * max(r.pq.i_rms_a, 1e-12) and abs(r.pq.i_dc_a) > 1e-4:
+            why = design.topology_impl.dc_bias_reason
+            warnings.append(
+                f"state '{r.state}': draws {r.pq.i_dc_a * 1e3:.2f} mA DC from the mains ({why})"
+            )
+        if abs(r.balance.residual_pct) > 0.5:
+            warnings.append(
+                f"state '{r.state}': energy balance closes only to {r.balance.residual_pct:.2f} %"
+            )
+    st = stresses(design, stressed)
+    for s in st:
+        if s.verdict == "fail":
+            warnings.append(f"stress: {s.item} {s.value:.3g} {s.unit} fails ({s.note or s.condition})")
+    unit = UnitAnalysis(
+        design=design,
+        states=nominal,
+        stresses=st,
+        warnings=warnings,
+        caution=None if design.is_isolated else NON_ISOLATION_CAUTION,
+        max_deliverable_a=max_a,
+        hand=hand,
+        eps=eps_figures(design) if isinstance(design.output, ConverterOutput) else None,
+    )
+    rows = unit_compliance(design, unit, limits_file=limits_file)
+    return replace(unit, compliance=tuple(rows))
