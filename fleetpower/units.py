@@ -3,14 +3,16 @@
 from __future__ import annotations
 
 import functools
-
-import pint
+import re
 
 from .errors import InputError
 
 
 @functools.lru_cache(maxsize=1)
-def registry() -> pint.UnitRegistry:
+def registry():
+    """pint's unit registry with the trade's spellings (built on first use: ~1 s)."""
+    import pint
+
     ureg = pint.UnitRegistry()
     # Trade spellings that pint does not know out of the box.
     ureg.define("Mohm = 1e6 * ohm")
@@ -61,8 +63,13 @@ def parse_quantity(text, dimension: str, *, file: str = "<input>", key: str = ""
         raise InputError(file, key, f"expected a {dimension} with its unit, e.g. \"1 {si}\"")
     if not isinstance(text, str):
         raise InputError(file, key, f"{text!r} has no unit; write it as \"{text} {si}\"")
-    ureg = registry()
     cleaned = text.strip().replace("µ", "u").replace("μ", "u").replace("Ω", "ohm")
+    quick = _plain_si(cleaned, dimension)
+    if quick is not None:
+        return quick
+    import pint
+
+    ureg = registry()
     try:
         q = ureg.Quantity(cleaned)
     except Exception as exc:  # pint raises several unrelated types here
@@ -75,3 +82,41 @@ def parse_quantity(text, dimension: str, *, file: str = "<input>", key: str = ""
         )
     value = float(q.to(si).magnitude)
     return value
+
+
+# ----------------------------------------------------------------------------------
+# The common spellings ("3.3 uF", "25 mA", "1 Mohm") read without pint: importing pint
+# and building its registry costs about a second, most of a quick command's time.
+# Anything else (other units, compound expressions, inf/nan, odd spacing) goes to pint,
+# which stays the authority; tests/test_units.py checks that both agree on every form
+# accepted here.
+# ----------------------------------------------------------------------------------
+#: SI unit symbol -> dimension it measures (the symbols pint reads the same way)
+_PLAIN_UNITS = {
+    "V": "voltage", "A": "current", "W": "power", "VA": "power", "var": "power",
+    "F": "capacitance", "ohm": "resistance", "H": "inductance", "Hz": "frequency",
+    "s": "time", "J": "energy",
+}
+#: SI prefixes -> power of ten (no leading zeros in the number: pint reads "007 V" oddly) (pint: micro = 1e-6 etc.)
+_PLAIN_PREFIXES = {"": 0, "p": -12, "n": -9, "u": -6, "m": -3, "k": 3, "M": 6, "G": 9}
+_PLAIN = re.compile(
+    r"([+-]?(?:[1-9]\d*\.?\d*|0?\.\d+|0\.?)(?:[eE][+-]?\d{1,3})?)( ?)"
+    r"(" + "|".join(p for p in _PLAIN_PREFIXES if p) + r")?"
+    r"(" + "|".join(sorted(_PLAIN_UNITS, key=len, reverse=True)) + r")"
+)
+
+
+def _plain_si(text: str, dimension: str) -> float | None:
+    """``text`` in SI units when it is a plain ``number [prefix]unit`` of ``dimension``.
+
+    None when it is anything else (then pint reads it, and explains any error).
+    """
+    m = _PLAIN.fullmatch(text)
+    if m is None or _PLAIN_UNITS[m.group(4)] != dimension:
+        return None
+    if not m.group(2) and not m.group(3) and m.group(4) == "J":
+        return None  # "4e6J" is a complex literal to pint's tokenizer: let pint say so
+    value = float(m.group(1))
+    exp = _PLAIN_PREFIXES[m.group(3) or ""]
+    # pint scales by the prefix's factor 10**exp (a float); do the same, bit for bit
+    return value * 10.0**exp if exp < 0 else value * float(10**exp)
