@@ -4,14 +4,20 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
+import time
 
 from rich.console import Console
 
+from . import __version__
 from .errors import FleetpowerError, InputError, SolverError
 
+EXIT_OK = 0
+EXIT_VERDICT = 1  # only with --strict: a check failed
 EXIT_INPUT = 2
 EXIT_SOLVER = 3
+EXIT_INTERRUPTED = 130
 
 
 def _console(args) -> Console:
@@ -21,6 +27,65 @@ def _console(args) -> Console:
 def _status(message: str):
     """A spinner on stderr while the engine works (silent when stderr is not a terminal)."""
     return Console(stderr=True).status(message, spinner="line")
+
+
+def _engine_ready() -> None:
+    """Compile the circuit engine now if this machine has no compiled copy yet, saying so.
+
+    The first run after installing compiles the numba engine once (its cache then lives
+    beside the package); without this note the spinner would claim to be solving.
+    """
+    from .engine import solver
+
+    if solver.engine_is_compiled():
+        return
+    err = Console(stderr=True, highlight=False)
+    err.print("fleetpower: compiling the circuit engine for this machine; this happens "
+              "once, later runs start in about a second", soft_wrap=True)
+    t0 = time.perf_counter()
+    with err.status("compiling the circuit engine (once)", spinner="line"):
+        solver.compile_engine()
+    err.print(f"fleetpower: engine compiled in {time.perf_counter() - t0:.0f} s")
+
+
+def _wrote(paths) -> None:
+    """One line on stderr naming every file written."""
+    paths = [str(p) for p in paths]
+    if paths:
+        print(f"fleetpower: wrote {', '.join(paths)}", file=sys.stderr)
+
+
+def failed_checks(report: dict) -> list[str]:
+    """What --strict counts as a failed verdict in a unit, fleet or compare report.
+
+    A unit: a limit or a component stress that fails. A fleet: a limit (IEEE 519) that
+    fails or a conductor over its rating. A comparison: no candidate free of failed checks.
+    """
+    if "designs" in report:  # compare
+        counts = [d.get("failed_checks", 0) for d in report["designs"]]
+        return [] if not counts or min(counts) == 0 else ["every candidate fails a check"]
+    out = []
+    for row in report.get("compliance") or []:
+        if row.get("verdict") == "fail":
+            out.append(f"limit: {row.get('edition') or row.get('set', '')}")
+    for row in report.get("stresses") or []:
+        if row.get("verdict") == "fail":
+            out.append(f"stress: {row.get('item', '')}")
+    for row in report.get("conductors") or []:
+        if row.get("verdict") == "over":
+            out.append(f"conductor: {row.get('conductor', '')} over its rating")
+    return out
+
+
+def _verdict_exit(args, report: dict) -> int:
+    if not getattr(args, "strict", False):
+        return EXIT_OK
+    failed = failed_checks(report)
+    if failed:
+        print(f"fleetpower: --strict: {len(failed)} failed check(s), the first a "
+              f"{failed[0]} (exit 1)", file=sys.stderr)
+        return EXIT_VERDICT
+    return EXIT_OK
 
 
 def cmd_unit(args) -> int:
@@ -39,6 +104,7 @@ def cmd_unit(args) -> int:
 
         raise InputError(args.design, "--state",
                          f"unknown state {args.state!r}{suggest(args.state, design.states)}")
+    _engine_ready()
     with _status(f"solving {design.name} to periodic steady state"):
         analysis = analyse_unit(design, states, limits_file=args.limits)
     report = unit_to_dict(analysis)
@@ -46,7 +112,7 @@ def cmd_unit(args) -> int:
         print(json.dumps(report, indent=2))
     else:
         render_unit(report, _console(args))
-    return 0
+    return _verdict_exit(args, report)
 
 
 def cmd_limits(args) -> int:
@@ -101,6 +167,7 @@ def cmd_fleet(args) -> int:
     from .report import fleet_to_dict, render_fleet
 
     spec = load_fleet(args.fleet)
+    _engine_ready()
     result = evaluate_fleet(spec, progress=_progress_printer())
     report = fleet_to_dict(result)
     if args.csv:
@@ -109,7 +176,9 @@ def cmd_fleet(args) -> int:
         print(json.dumps(report, indent=2))
     else:
         render_fleet(report, _console(args))
-    return 0
+    if args.csv:
+        _wrote([args.csv])
+    return _verdict_exit(args, report)
 
 
 def cmd_compare(args) -> int:
@@ -122,9 +191,11 @@ def cmd_compare(args) -> int:
         from .report.plots import require_matplotlib
 
         require_matplotlib()
+    _engine_ready()
     cmp = run_compare(args.fleet, args.design, args.years, args.rate, args.escalation,
                       progress=_progress_printer("candidate"))
     report = compare_to_dict(cmp)
+    written = []
     if args.csv:
         from pathlib import Path
 
@@ -133,17 +204,22 @@ def cmd_compare(args) -> int:
         for x, c in zip(report["designs"], cmp.candidates, strict=True):
             write_atomic(out / f"groups_{x['letter']}_{x['design']}.csv",
                          c.fleet.groups.to_csv(index=False))
+        written.append(f"{out / 'designs.csv'} and {len(cmp.candidates)} per-group "
+                       f"tables in {out}")
     if args.markdown:
         write_atomic(args.markdown, compare_markdown(report))
+        written.append(args.markdown)
     if args.plots:
         from .report.plots import comparison_figures
 
-        comparison_figures(cmp, args.plots)
+        figs = comparison_figures(cmp, args.plots) or []
+        written.append(f"{len(figs)} figure file(s) in {args.plots}")
     if args.json:
         print(json.dumps(report, indent=2))
     else:
         render_compare(report, _console(args))
-    return 0
+    _wrote(written)
+    return _verdict_exit(args, report)
 
 
 def cmd_demo(args) -> int:
@@ -168,34 +244,86 @@ DEMO_DESIGNS = ("sensor-dropper-230.toml", "desk-sensor-dropper-lean.toml",
                 "desk-sensor-smps-230.toml", "desk-sensor-transformer-230.toml")
 
 
+_EPILOGS = {
+    "unit": """example:
+  fleetpower unit examples/nightlight-dropper.toml
+  fleetpower unit examples/led-driver-40w.toml --state active --json > led.json
+  fleetpower unit my-design.toml --limits my-rules.csv --strict || echo "a check failed"
+""",
+    "fleet": """example:
+  fleetpower fleet examples/harbour-office.toml
+  fleetpower fleet examples/harbour-office.toml --csv groups.csv --json > fleet.json
+""",
+    "compare": """example:
+  cd examples && fleetpower compare harbour-office.toml \\
+      --design sensor-dropper-230.toml --design desk-sensor-smps-230.toml \\
+      --years 12 --rate 0.05 --markdown tender.md --plots figures/
+""",
+    "demo": """example:
+  fleetpower demo
+  fleetpower demo --markdown demo.md --width 120
+""",
+    "limits": """example:
+  fleetpower limits
+  fleetpower limits iec61000-3-2-class-a
+  fleetpower limits my-rules.csv      # check a limit file of your own
+""",
+}
+
+_EXIT_CODES = """exit status:
+  0 done; 1 a check failed (only with --strict); 2 bad input (one line names the
+  file and key); 3 the solver refused (with the physical reason); 130 interrupted
+"""
+
+_WIDTH_HELP = "width of the printed screen in columns (default: the terminal's)"
+_STRICT_HELP = "exit 1 when a check fails (limits, stresses, conductors), for scripts"
+
+
+def _verb(sub, name: str, help_text: str) -> argparse.ArgumentParser:
+    return sub.add_parser(name, help=help_text, description=help_text[:1].upper() + help_text[1:]
+                          + ".", epilog=_EPILOGS[name] + "\n" + _EXIT_CODES,
+                          formatter_class=argparse.RawDescriptionHelpFormatter)
+
+
 def _add_outputs(p) -> None:
     p.add_argument("--json", action="store_true", help="print one JSON object instead")
     p.add_argument("--csv", metavar="DIR", help="write per-design and per-group tables here")
     p.add_argument("--markdown", metavar="FILE", help="write a report for a tender file")
     p.add_argument("--plots", metavar="DIR", help="write figures (needs fleetpower[plot])")
-    p.add_argument("--width", type=int)
+    p.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    p.add_argument("--strict", action="store_true",
+                   help="exit 1 when no candidate is free of failed checks, for scripts")
 
 
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="fleetpower",
         description="What a fleet of small always-on mains supplies really draws.",
+        epilog="example:\n  fleetpower demo\n  fleetpower unit examples/nightlight-dropper.toml"
+               "\n  fleetpower VERB --help      # each verb's options and a worked example\n\n"
+               + _EXIT_CODES,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    sub = p.add_subparsers(dest="command", required=True)
-    u = sub.add_parser("unit", help="simulate one supply to periodic steady state")
+    p.add_argument("--version", action="version", version=f"fleetpower {__version__}",
+                   help="print the version and exit")
+    sub = p.add_subparsers(dest="command", required=True, metavar="VERB")
+    u = _verb(sub, "unit", "simulate one supply to periodic steady state")
     u.add_argument("design", help="design file (TOML)")
     u.add_argument("--state", help="analyse only this operating state")
     u.add_argument("--json", action="store_true", help="print one JSON object instead")
-    u.add_argument("--limits", help="an extra limit-set file (CSV) to check against")
-    u.add_argument("--width", type=int, help="terminal width in columns")
+    u.add_argument("--limits", metavar="FILE",
+                   help="an extra limit-set file (CSV) to check against")
+    u.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    u.add_argument("--strict", action="store_true", help=_STRICT_HELP)
     u.set_defaults(func=cmd_unit)
-    fl = sub.add_parser("fleet", help="what a whole deployment draws and costs")
+    fl = _verb(sub, "fleet", "what a whole deployment draws and costs")
     fl.add_argument("fleet", help="fleet file (TOML)")
     fl.add_argument("--json", action="store_true", help="print one JSON object instead")
     fl.add_argument("--csv", metavar="OUT", help="write the per-group table to this CSV file")
-    fl.add_argument("--width", type=int)
+    fl.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    fl.add_argument("--strict", action="store_true", help=_STRICT_HELP)
     fl.set_defaults(func=cmd_fleet)
-    cp = sub.add_parser("compare", help="candidate designs over the same fleet's life")
+    cp = _verb(sub, "compare", "candidate designs over the same fleet's life")
     cp.add_argument("fleet", help="fleet file (TOML)")
     cp.add_argument("--design", action="append", required=True, metavar="DESIGN.toml",
                     help="a candidate design (repeat); it replaces designs of its role")
@@ -204,13 +332,13 @@ def build_parser() -> argparse.ArgumentParser:
     cp.add_argument("--escalation", type=float, help="energy price escalation per year")
     _add_outputs(cp)
     cp.set_defaults(func=cmd_compare)
-    dm = sub.add_parser("demo", help="run the bundled scenario end to end")
+    dm = _verb(sub, "demo", "run the bundled scenario end to end")
     _add_outputs(dm)
     dm.set_defaults(func=cmd_demo)
-    lim = sub.add_parser("limits", help="list the shipped limit sets, or show one")
+    lim = _verb(sub, "limits", "list the shipped limit sets, or show one")
     lim.add_argument("set", nargs="?", help="a set id, or a limit file (CSV) to check")
-    lim.add_argument("--json", action="store_true")
-    lim.add_argument("--width", type=int)
+    lim.add_argument("--json", action="store_true", help="print JSON records instead")
+    lim.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
     lim.set_defaults(func=cmd_limits)
     return p
 
@@ -231,5 +359,24 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_INPUT
 
 
+def run() -> None:  # pragma: no cover - the console script; exits the process
+    """Run :func:`main` and leave without tearing the interpreter down.
+
+    Output is flushed and atexit handlers run first, so nothing printed or written is
+    lost; what is skipped is the module teardown and garbage collection of numba's and
+    pandas' objects, which took longer than a quick command itself.
+    """
+    code = main()
+    try:
+        sys.stdout.flush()
+        sys.stderr.flush()
+    except (BrokenPipeError, OSError):  # a reader that stopped early (| head)
+        pass
+    import atexit
+
+    atexit._run_exitfuncs()
+    os._exit(code)
+
+
 if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+    run()

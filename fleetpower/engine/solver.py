@@ -566,3 +566,31 @@ def solve_periodic(
         periodic_residual=info[:, 2],
         converged=info[:, 0] == STATUS_OK,
     )
+
+
+# ----------------------------------------------------------------------------------
+# first run on a machine: compiling the engine
+# ----------------------------------------------------------------------------------
+#: the one signature the batch entry point is called with (see :func:`solve_periodic`)
+_BATCH_SIGNATURE = "(float64[:, ::1], float64[:, ::1], int64, float64[:, :, ::1], " \
+                   "float64[:, :, ::1], float64[:, ::1])"
+
+
+def engine_is_compiled() -> bool:
+    """Whether numba's cache holds a compiled engine for this source and this machine.
+
+    Reads numba's cache index (which numba itself discards when the source changed);
+    when that cannot be read, says True, so at worst a note is not printed.
+    """
+    if _shoot_batch.signatures:
+        return True
+    try:
+        index = _shoot_batch._cache._cache_file._load_index()
+    except Exception:  # numba's internals moved: do not guess
+        return True
+    return bool(index)
+
+
+def compile_engine() -> None:
+    """Compile (or load from numba's cache) the batch entry point without solving."""
+    _shoot_batch.compile(_BATCH_SIGNATURE)

@@ -1,0 +1,98 @@
+"""Command-line conventions: --version, help with worked examples, exit codes, --strict,
+and the line naming what was written.
+
+Source: the conventions are the project's own (README "Exit status"); exit 2 for a usage
+error is argparse's, 130 = 128 + SIGINT is the POSIX shells' convention (common practice,
+no source).
+"""
+
+from __future__ import annotations
+
+import argparse
+import contextlib
+import io
+import json
+
+import pytest
+from conftest import example_path
+
+from fleetpower import __version__
+from fleetpower.cli import build_parser, failed_checks, main
+
+
+def _run(*argv) -> tuple[int, str, str]:
+    out, err = io.StringIO(), io.StringIO()
+    code = 0
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+        try:
+            code = main([str(a) for a in argv])
+        except SystemExit as exc:  # argparse: --help, --version, usage errors
+            code = exc.code
+    return code, out.getvalue(), err.getvalue()
+
+
+def _verbs() -> dict[str, argparse.ArgumentParser]:
+    sub = next(a for a in build_parser()._actions if isinstance(a, argparse._SubParsersAction))
+    return dict(sub.choices)
+
+
+def test_version():
+    code, out, _ = _run("--version")
+    assert code == 0 and out.strip() == f"fleetpower {__version__}"
+
+
+@pytest.mark.parametrize("verb", sorted(_verbs()))
+def test_every_verb_help_has_a_worked_example_and_exit_codes(verb):
+    code, out, _ = _run(verb, "--help")
+    assert code == 0
+    assert "example:" in out and f"fleetpower {verb}" in out.split("example:")[1]
+    assert "exit status:" in out and "130 interrupted" in out
+
+
+@pytest.mark.parametrize("verb", sorted(_verbs()))
+def test_every_option_has_a_help_line(verb):
+    for action in _verbs()[verb]._actions:
+        assert action.help and action.help != argparse.SUPPRESS, (verb, action.dest)
+
+
+def test_usage_error_is_exit_2():
+    assert _run("unit")[0] == 2  # argparse: missing argument
+    assert _run("no-such-verb")[0] == 2
+
+
+def test_bad_input_is_exit_2_in_one_line(tmp_path):
+    bad = tmp_path / "bad.toml"
+    bad.write_text('name = "x"\ntopology = "capacitive-dropper"\n', encoding="utf-8")
+    code, out, err = _run("unit", bad)
+    assert code == 2 and out == ""
+    assert len(err.strip().splitlines()) == 1 and str(bad) in err
+
+
+def test_strict_exit_1_only_when_a_check_fails():
+    led = example_path("led-driver-40w")  # fails IEC 61000-3-2 Class C (README)
+    assert _run("unit", led, "--state", "full", "--json")[0] == 0
+    code, out, err = _run("unit", led, "--state", "full", "--json", "--strict")
+    assert code == 1 and "--strict" in err
+    assert json.loads(out)["compliance"]  # the report is still printed in full
+    smps = example_path("desk-sensor-smps-230")  # passes every check (its golden output)
+    assert _run("unit", smps, "--json", "--strict")[0] == 0
+
+
+def test_failed_checks_reads_each_report_kind():
+    assert failed_checks({"compliance": [{"verdict": "pass"}], "stresses": []}) == []
+    assert failed_checks({"compliance": [{"verdict": "fail", "edition": "IEC X"}]}) == [
+        "limit: IEC X"]
+    assert failed_checks({"stresses": [{"verdict": "fail", "item": "zener power"}]}) == [
+        "stress: zener power"]
+    assert failed_checks({"conductors": [{"verdict": "over", "conductor": "neutral"}]})
+    assert failed_checks({"designs": [{"failed_checks": 2}, {"failed_checks": 1}]})
+    assert not failed_checks({"designs": [{"failed_checks": 2}, {"failed_checks": 0}]})
+
+
+def test_written_files_are_named_on_stderr(tmp_path):
+    out_csv = tmp_path / "groups.csv"
+    code, out, err = _run("fleet", example_path("maple-clinic-120-208"), "--json",
+                          "--csv", out_csv)
+    assert code == 0 and out_csv.is_file()
+    assert f"wrote {out_csv}" in err
+    json.loads(out)  # stdout stays pure JSON
