@@ -57,3 +57,15 @@ CANCEL_REL = 1e-9
 #: the hand estimate Q = -N V^2 w C of a dropper fleet against the simulated circuit
 #: (the estimate ignores the clamp and the series resistor, a few per cent)
 REL_HAND_Q = 0.05
+
+# --- measured supplies (captures and harmonic tables) -------------------------------
+#: I rms, P, DPF and each harmonic h = 1..40 of a synthetic capture against its
+#: closed-form series, relative (the measured-supply issue's acceptance: 0.5 %)
+CAPTURE_REL = 0.005
+#: harmonics are compared when above this fraction of the fundamental (same acceptance)
+CAPTURE_H_FLOOR = 0.01
+#: the estimated mains frequency, relative: a clean capture gives ~1e-9; 1e-6 leaves room
+#: for 12-bit quantisation and still keeps the window's phase drift at h = 40 below 0.03 %
+FREQ_REL = 1e-6
+#: a harmonic table written from a spectrum (10 significant digits) and read back
+TABLE_REL = 1e-7
