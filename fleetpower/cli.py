@@ -222,6 +222,70 @@ def cmd_compare(args) -> int:
     return _verdict_exit(args, report)
 
 
+def cmd_spread(args) -> int:
+    import contextlib
+
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
+
+    from .executors import dask_executor, local_executor
+    from .io.design_file import load_design
+    from .report.spread import render_spread, spread_figures, spread_to_dict
+    from .spread.study import plan_spread, run_ageing, run_spread
+    from .spread.tolerance import mains_band_spreads
+
+    design = load_design(args.design)
+    if args.plots:
+        from .report.plots import require_matplotlib
+
+        require_matplotlib()
+    band = None
+    if args.mains_band:
+        volt, _, freq = args.mains_band.partition(",")
+        raw = {"voltage": volt.strip()} | ({"frequency": freq.strip()} if freq else {})
+        band = mains_band_spreads(raw, design.mains.voltage, design.mains.frequency,
+                                  file=args.design, key="--mains-band")
+    err = Console(stderr=True)
+    progress = Progress("{task.description}", BarColumn(), MofNCompleteColumn(),
+                        TimeRemainingColumn(), console=err, transient=True,
+                        disable=not err.is_terminal)
+    if args.dask or args.scheduler:
+        runner = dask_executor(address=args.scheduler, n_workers=args.workers)
+    else:
+        runner = contextlib.nullcontext(local_executor)
+    _engine_ready()
+    with _status("solving the nominal design"):
+        plan = plan_spread(design, samples=args.samples, seed=args.seed, corners=args.corners,
+                           mains_band=band, class_defaults=False if args.declared_only else None,
+                           limits_file=args.limits, check_limits=not args.no_limits)
+    with runner as executor, progress:
+        task = progress.add_task("units", total=plan.n)
+        result = run_spread(plan, executor=executor, chunk_size=args.chunk,
+                            progress=lambda done, n: progress.update(task, completed=done))
+        if args.years is not None and not result.interrupted:
+            atask = progress.add_task("ageing", total=plan.n)
+            try:
+                ageing = run_ageing(plan, args.years, executor=executor,
+                                    chunk_size=args.chunk,
+                                    progress=lambda d, n: progress.update(atask, completed=d,
+                                                                          total=n))
+                from dataclasses import replace
+
+                result = replace(result, ageing=ageing)
+            except KeyboardInterrupt:
+                err.print("ageing interrupted: not reported")
+    if result.interrupted:
+        err.print(f"interrupted: reporting the {result.done} of {result.requested} samples "
+                  "done so far")
+    report = spread_to_dict(result)
+    if args.plots and result.done:
+        _wrote(spread_figures(result, args.plots))
+    if args.json:
+        print(json.dumps(report, indent=2))
+    else:
+        render_spread(report, _console(args))
+    return EXIT_INTERRUPTED if result.interrupted else EXIT_OK
+
+
 def cmd_demo(args) -> int:
     from ._resources import examples_dir
 
@@ -258,6 +322,11 @@ _EPILOGS = {
   cd examples && fleetpower compare harbour-office.toml \\
       --design sensor-dropper-230.toml --design desk-sensor-smps-230.toml \\
       --years 12 --rate 0.05 --markdown tender.md --plots figures/
+""",
+    "spread": """example:
+  fleetpower spread examples/desk-sensor-dropper-lean.toml --samples 200 --years 10
+  fleetpower spread my-design.toml --corners --json > corners.json
+  fleetpower spread my-design.toml --samples 10000 --scheduler tcp://10.0.0.5:8786
 """,
     "demo": """example:
   fleetpower demo
@@ -332,6 +401,35 @@ def build_parser() -> argparse.ArgumentParser:
     cp.add_argument("--escalation", type=float, help="energy price escalation per year")
     _add_outputs(cp)
     cp.set_defaults(func=cmd_compare)
+    sp = _verb(sub, "spread", "a production run: part tolerances, the mains band, ageing")
+    sp.add_argument("design", help="design file (TOML), tolerances declared beside values")
+    sp.add_argument("--samples", type=int, default=500, metavar="N",
+                    help="Monte Carlo units (default 500)")
+    sp.add_argument("--seed", type=int, default=0, metavar="S", help="run seed (default 0)")
+    sp.add_argument("--corners", action="store_true",
+                    help="every extreme combination instead of random units")
+    sp.add_argument("--years", type=int, metavar="Y",
+                    help="age the series capacitor and report years 0..Y")
+    sp.add_argument("--mains-band", metavar="'V %,F %'",
+                    help="mains band of this run, e.g. '10 %%,1 %%' (default: the design's)")
+    sp.add_argument("--declared-only", action="store_true",
+                    help="vary only declared tolerances (no part-class defaults)")
+    sp.add_argument("--dask", action="store_true",
+                    help="run the batches on a local Dask cluster (needs fleetpower[dask])")
+    sp.add_argument("--scheduler", metavar="ADDRESS",
+                    help="run the batches on this Dask scheduler, e.g. tcp://host:8786")
+    sp.add_argument("--workers", type=int, default=2, metavar="N",
+                    help="workers of the local Dask cluster (default 2)")
+    sp.add_argument("--chunk", type=int, default=128, metavar="N",
+                    help="units solved per batch (default 128)")
+    sp.add_argument("--limits", metavar="FILE",
+                    help="an extra limit-set file (CSV) to check every unit against")
+    sp.add_argument("--no-limits", action="store_true",
+                    help="skip the limit sets per unit (stresses and regulation still checked)")
+    sp.add_argument("--plots", metavar="DIR", help="write percentile plots (fleetpower[plot])")
+    sp.add_argument("--json", action="store_true", help="print one JSON object instead")
+    sp.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    sp.set_defaults(func=cmd_spread)
     dm = _verb(sub, "demo", "run the bundled scenario end to end")
     _add_outputs(dm)
     dm.set_defaults(func=cmd_demo)

@@ -107,6 +107,9 @@ class StateResult:
     v_cap_rms_v: float
     in_regulation: bool
     iterations: int
+    #: engine unknowns at the start of the settled cycle (v_c1 [V], v_o [V], v_a [V],
+    #: i_s [A]): a warm start for variants of this case (spread samples)
+    x_start: tuple[float, ...] = ()
 
     @property
     def i_h_vs_v_a(self) -> np.ndarray:
@@ -180,6 +183,7 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
                 v_cap_rms_v=v_cap_rms,
                 in_regulation=ok,
                 iterations=int(sol.iterations[b]),
+                x_start=tuple(float(x) for x in sol.states[b, 0]),
             )
         )
     return results
@@ -250,11 +254,16 @@ def run(
     samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,
     cache: ResultCache | None = CACHE,
     executor=local_executor,
+    initial: list[tuple[float, ...] | None] | None = None,
 ) -> list[StateResult]:
     """Solve cases (of any number of designs) in one batch; results in the order of cases.
 
     Cases found in ``cache`` are not solved again; duplicates within ``cases`` are solved
-    once. ``executor`` runs the batch (:mod:`fleetpower.executors`).
+    once. ``executor`` runs the batch (:mod:`fleetpower.executors`). ``initial`` gives, per
+    case, a starting guess of the engine unknowns in place of the topology's (a near
+    solution's :attr:`StateResult.x_start`: the shooting iteration then needs a couple of
+    cycles instead of about ten); the result does not depend on it beyond the solver's
+    periodicity tolerance.
     """
     keys = [case_key(c, samples_per_cycle) for c in cases]
     out: list[StateResult | None] = [None] * len(cases)
@@ -268,6 +277,9 @@ def run(
     if todo:
         first = [idx[0] for idx in todo.values()]
         rows, x0s = zip(*(engine_row(cases[k]) for k in first), strict=True)
+        if initial is not None:
+            x0s = tuple(np.asarray(initial[k], dtype=float) if initial[k] else x
+                        for k, x in zip(first, x0s, strict=True))
         labels = [f"{cases[k].design.name} / {cases[k].state} at "
                   f"{cases[k].mains_factor:.2f}x mains" for k in first]
         (sol,) = executor(solve_batch, [Batch(np.array(rows), np.array(x0s),

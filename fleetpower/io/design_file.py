@@ -20,6 +20,7 @@ from typing import Annotated, Any, Literal, Union
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
 from ..errors import InputError, suggest
+from ..spread.tolerance import SpreadSpec, read_spread_table, split_tolerances
 from ..topologies import REGISTRY, TOPOLOGIES, Topology
 from ..units import parse_quantity
 from .schema import ConverterOutput, LinearOutput, Mains  # noqa: F401 (re-exported)
@@ -53,6 +54,9 @@ class Design(BaseModel):
     parts: _PartsUnion
     output: _OutputUnion
     states: dict[str, tuple[str, float]]
+    #: declared tolerances, the mains band and the ageing settings (``[spread]``); the
+    #: values above are the nominals
+    spread: SpreadSpec = SpreadSpec()
     source: str = "<input>"
 
     @property
@@ -166,8 +170,17 @@ def design_from_dict(data: dict, file: str = "<input>") -> Design:
             f"unknown topology {topology!r}{suggest(str(topology), TOPOLOGIES)}; "
             f"choose one of {', '.join(TOPOLOGIES)}",
         )
-    mains = _validate(Mains, data["mains"], file, ("mains",))
-    parts = _validate(_PARTS[topology], data["parts"], file, ("parts",))
+    declared = []
+    tables = {}
+    for name, model in (("mains", Mains), ("parts", _PARTS[topology])):
+        if isinstance(data[name], dict):
+            tables[name], found = split_tolerances(data[name], name, file=file,
+                                                   known=set(model.model_fields))
+            declared += found
+        else:
+            tables[name] = data[name]
+    mains = _validate(Mains, tables["mains"], file, ("mains",))
+    parts = _validate(_PARTS[topology], tables["parts"], file, ("parts",))
     output = _validate(_OUTPUT[topology], data["output"], file, ("output",))
     states_raw = data["states"]
     if not isinstance(states_raw, dict) or not states_raw:
@@ -177,12 +190,15 @@ def design_from_dict(data: dict, file: str = "<input>") -> Design:
         for name, value in states_raw.items()
     }
     rest = {
-        k: v for k, v in data.items() if k not in ("mains", "parts", "output", "states")
+        k: v for k, v in data.items()
+        if k not in ("mains", "parts", "output", "states", "spread")
     }
+    spread = read_spread_table(data.get("spread"), declared, mains.voltage, mains.frequency,
+                               file=file)
     try:
         design = Design.model_validate(
             {**rest, "mains": mains, "parts": parts, "output": output, "states": states,
-             "source": file}
+             "spread": spread, "source": file}
         )
     except ValidationError as exc:
         raise _fail(file, exc, (), Design) from None

@@ -343,14 +343,24 @@ def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> pd.Dat
     return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=COLUMNS)
 
 
-def _shipped() -> pd.DataFrame:
-    """All shipped rows (cached per file modification time; a copy is returned)."""
+def _stamp() -> tuple[tuple[str, float], ...]:
     files = sorted(limits_dir().glob("*.csv"))
     if not files:
         raise FleetpowerError(f"no limit tables found in {limits_dir()}: the installation "
                               "is incomplete (reinstall fleetpower)")
-    stamp = tuple((str(f), f.stat().st_mtime) for f in files)
-    return _shipped_cached(str(limits_dir()), stamp).copy()
+    return tuple((str(f), f.stat().st_mtime) for f in files)
+
+
+def _shipped() -> pd.DataFrame:
+    """All shipped rows (cached per file modification time; a copy is returned)."""
+    return _shipped_cached(str(limits_dir()), _stamp()).copy()
+
+
+@functools.lru_cache(maxsize=64)
+def _shipped_set_cached(name: str, folder: str,
+                        stamp: tuple[tuple[str, float], ...]) -> pd.DataFrame:
+    shipped = _shipped_cached(folder, stamp)
+    return shipped[shipped["set"] == name].reset_index(drop=True)
 
 
 def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
@@ -386,13 +396,13 @@ def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
         if not path.is_file():
             raise InputError(text, "", "limit file not found")
         return _read_table(path)
-    shipped = _shipped()
-    sel = shipped[shipped["set"] == text]
+    # a spread run evaluates every unit against the same sets: select each set once
+    sel = _shipped_set_cached(text, str(limits_dir()), _stamp())
     if sel.empty:
-        ids = sorted(set(shipped["set"]))
+        ids = sorted(set(_shipped()["set"]))
         raise InputError(text, "limit set", f"unknown limit set '{text}' and no such file"
                          f"{suggest(text, ids)}; 'fleetpower limits' lists the sets")
-    return sel.reset_index(drop=True)
+    return sel.copy()
 
 
 def list_limit_sets() -> pd.DataFrame:

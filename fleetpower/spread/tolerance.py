@@ -352,13 +352,13 @@ def read_toleranced(
 
 
 def split_tolerances(
-    table: dict, prefix: str, *, file: str = "<input>"
+    table: dict, prefix: str, *, file: str = "<input>", known: set[str] | None = None
 ) -> tuple[dict, list[PartSpread]]:
     """Replace every toleranced value of a design-file table by its plain nominal.
 
     A value is a tolerance declaration when it is an inline table with a ``value``,
     ``tolerance``, ``distribution`` or ``corners`` key; other tables (``diode``) are
-    left to the schema.
+    left to the schema, and so are keys not in ``known`` (the schema names them unknown).
 
     Returns
     -------
@@ -371,7 +371,7 @@ def split_tolerances(
     marks = {"value", "tolerance", "distribution", "corners", "sigmas"}
     for name, raw in table.items():
         key = f"{prefix}.{name}"
-        if isinstance(raw, dict) and marks & set(raw):
+        if isinstance(raw, dict) and marks & set(raw) and (known is None or name in known):
             nominal, spread = read_toleranced(raw, key, file=file)
             plain[name] = nominal
             spreads.append(spread)
@@ -462,3 +462,88 @@ def mains_band_spreads(
         _check_positive(spread, file, key, band_where=f"{key}.{name}")
         out.append(spread)
     return out
+
+
+class SpreadDecl(BaseModel):
+    """The design file's ``[spread]`` table, as written."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    mains: Any = None
+    capacitor_loss_per_year: Any = None
+    capacitor_loss_voltage_accelerated: bool = False
+    part_class_defaults: bool = True
+
+
+@dataclass(frozen=True)
+class SpreadSpec:
+    """What a design declares about its production spread and ageing.
+
+    Attributes
+    ----------
+    parts : tuple of PartSpread
+        Tolerances declared beside values in ``[parts]`` and ``[mains]``.
+    mains_band : tuple of PartSpread
+        The band of ``[spread] mains`` (empty: the class defaults, or ``[mains]``'s own).
+    capacitor_loss_per_year : float
+        Capacitance loss of the series / X capacitor [1/year] at the reference stress
+        (:data:`fleetpower.spread.ageing.DEFAULT_LOSS_PER_YEAR` unless declared).
+    capacitor_loss_voltage_accelerated : bool
+        Scale that loss by the voltage stress on the capacitor's ac rating.
+    part_class_defaults : bool
+        Undeclared parts take their class's usual tolerance (:data:`PART_CLASS_DEFAULTS`).
+    """
+
+    parts: tuple[PartSpread, ...] = ()
+    mains_band: tuple[PartSpread, ...] = ()
+    capacitor_loss_per_year: float | None = None
+    capacitor_loss_voltage_accelerated: bool = False
+    part_class_defaults: bool = True
+
+
+def read_spread_table(
+    raw: Any, declared: list[PartSpread], voltage_v: float, frequency_hz: float, *,
+    file: str = "<input>",
+) -> SpreadSpec:
+    """Validate a design's ``[spread]`` table into a :class:`SpreadSpec`.
+
+    Parameters
+    ----------
+    raw : dict or None
+        The table as written (None when the file has none).
+    declared : list of PartSpread
+        Tolerances declared beside values (from :func:`split_tolerances`).
+    voltage_v, frequency_hz : float
+        The design's nominal mains [V], [Hz].
+    """
+    if raw is None:
+        return SpreadSpec(parts=tuple(declared))
+    if not isinstance(raw, dict):
+        raise InputError(file, "spread", "expected a table")
+    try:
+        decl = SpreadDecl.model_validate(raw)
+    except ValidationError as exc:
+        err = exc.errors()[0]
+        loc = ".".join(["spread", *(str(p) for p in err["loc"])])
+        if err["type"] == "extra_forbidden":
+            raise InputError(file, loc, "unknown key" + suggest(
+                str(err["loc"][-1]), SpreadDecl.model_fields)) from None
+        raise InputError(file, loc, err["msg"]) from None
+    band: tuple[PartSpread, ...] = ()
+    if decl.mains is not None:
+        if any(s.key.startswith("mains.") for s in declared):
+            raise InputError(file, "spread.mains",
+                             "the mains band is already declared beside [mains] values; "
+                             "declare it once")
+        band = tuple(mains_band_spreads(decl.mains, voltage_v, frequency_hz, file=file,
+                                        key="spread.mains"))
+    loss = None
+    if decl.capacitor_loss_per_year is not None:
+        loss = parse_band(decl.capacitor_loss_per_year, file=file,
+                          key="spread.capacitor_loss_per_year")
+        if loss >= 1.0:
+            raise InputError(file, "spread.capacitor_loss_per_year",
+                             "a loss of 100 % or more per year leaves no capacitor")
+    return SpreadSpec(parts=tuple(declared), mains_band=band, capacitor_loss_per_year=loss,
+                      capacitor_loss_voltage_accelerated=decl.capacitor_loss_voltage_accelerated,
+                      part_class_defaults=decl.part_class_defaults)

@@ -1,0 +1,479 @@
+"""A spread study: a production run of one design, sampled or cornered, solved in batches.
+
+Data flows one way: :class:`~fleetpower.io.design_file.Design` (nominals and declared
+tolerances) -> :func:`plan_spread` (the toleranced values, the samples or corners, a warm
+start from the nominal solution) -> chunks of samples, each solved as ONE batch through
+:func:`fleetpower.simulate.run` by :func:`evaluate_chunk` and reduced to per-sample
+scalars (never waveforms) -> :class:`~fleetpower.spread.statistics.SpreadStatistics` ->
+:class:`SpreadResult`. Chunks are work items of a replaceable executor
+(:mod:`fleetpower.executors`: in this process, or on a Dask cluster); a sample's values
+depend only on (seed, sample index), so any chunking and any number of workers give the
+same result.
+
+Stresses and limits are evaluated on each unit at its own sampled mains (the mains band
+takes the place of the fixed +10 % of a nominal ``unit`` run).
+
+Owns: :class:`SpreadPlan`, :class:`SpreadResult`, :class:`AgeingResult`,
+:func:`plan_spread`, :func:`run_spread`, :func:`run_ageing`. May import ``simulate``,
+``unit``, ``limits``, ``executors`` and the rest of ``spread``; never ``fleet``,
+``compare``, reports or the CLI; no engine index.
+"""
+
+from __future__ import annotations
+
+import functools
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .. import simulate as sim
+from ..errors import InputError, SolverError
+from ..executors import Executor, chunk_ranges, local_executor
+from ..io.design_file import ConverterOutput, Design
+from ..topologies.capacitive_dropper import charge_pump_limit_a
+from .ageing import DEFAULT_LOSS_PER_YEAR, capacitance_at_year_f, loss_rate_per_year
+from .sampling import corner_values, monte_carlo_values
+from .statistics import SpreadStatistics
+from .tolerance import TOLERANCE_KEYS, PartSpread, default_spreads
+
+#: samples per work item: large enough that a batch keeps every core busy, small enough
+#: that a chunk's waveforms (2048 samples x 21 probes x 8 B per case) stay near 100 MB
+DEFAULT_CHUNK = 128
+#: fraction of units that must still deliver the heaviest state: the P5 unit
+P5_FRACTION = 0.95
+#: EPS load points as fractions of the rated output (as in the unit analysis)
+EPS_LOADS = (0.0, 0.25, 0.5, 0.75, 1.0)
+
+Progress = Callable[[int, int], None]
+
+
+def nominal_values(design: Design) -> dict[str, float]:
+    """Key path -> nominal SI value of every toleranceable key the design has."""
+    out = {}
+    for key in TOLERANCE_KEYS:
+        table, name = key.split(".", 1)
+        value = getattr(design.parts if table == "parts" else design.mains, name, None)
+        if isinstance(value, float):
+            out[key] = value
+    return out
+
+
+def study_spreads(
+    design: Design,
+    mains_band: list[PartSpread] | None = None,
+    class_defaults: bool | None = None,
+) -> list[PartSpread]:
+    """Every toleranced value of a run: declared, the mains band, then class defaults.
+
+    Parameters
+    ----------
+    design : Design
+    mains_band : list of PartSpread, optional
+        A band for this run (replaces any the design declares).
+    class_defaults : bool, optional
+        Whether undeclared parts take their class's usual band (default: the design's
+        ``[spread] part_class_defaults``, itself true by default).
+    """
+    spec = design.spread
+    out = [s for s in spec.parts if not (mains_band and s.key.startswith("mains."))]
+    out += list(mains_band) if mains_band else list(spec.mains_band)
+    use_defaults = spec.part_class_defaults if class_defaults is None else class_defaults
+    if use_defaults:
+        out += default_spreads(nominal_values(design), out)
+    return out
+
+
+def sample_design(design: Design, spreads: tuple[PartSpread, ...], row: np.ndarray) -> Design:
+    """The design with each toleranced value replaced by this sample's."""
+    parts, mains = {}, {}
+    for s, v in zip(spreads, row, strict=True):
+        table, name = s.key.split(".", 1)
+        (parts if table == "parts" else mains)[name] = float(v)
+    return design.model_copy(update={"parts": design.parts.model_copy(update=parts),
+                                     "mains": design.mains.model_copy(update=mains)})
+
+
+@dataclass(frozen=True)
+class SpreadPlan:
+    """Everything a worker needs to evaluate any chunk of a run (pickles to a cluster)."""
+
+    design: Design
+    spreads: tuple[PartSpread, ...]
+    mode: str  # "monte-carlo" | "corners"
+    seed: int
+    n: int
+    corner_table: np.ndarray | None
+    corner_labels: tuple[str, ...]
+    samples_per_cycle: int
+    #: nominal solution's unknowns at t = 0 per case of a sample (warm start)
+    warm: tuple[tuple[float, ...], ...]
+    limits_file: str | None = None
+    #: evaluate every unit against the limit sets (the slowest per-unit step, ~0.1 s)
+    check_limits: bool = True
+
+    def values(self, start: int, stop: int) -> np.ndarray:
+        """Toleranced values of samples ``start .. stop-1`` (one row each) [SI]."""
+        if self.mode == "corners":
+            return self.corner_table[start:stop]
+        return monte_carlo_values(self.spreads, self.seed, start, stop)
+
+
+def _sample_cases(design: Design) -> list[sim.Case]:
+    """The cases solved for one unit: every state, then the EPS load points if any."""
+    cases = [sim.Case(design, s) for s in design.states]
+    if isinstance(design.output, ConverterOutput):
+        state = next(iter(design.states))
+        out = design.output
+        cases += [sim.Case(design, state, 1.0, f * out.rated_power / out.voltage)
+                  for f in EPS_LOADS]
+    return cases
+
+
+def plan_spread(
+    design: Design,
+    *,
+    samples: int = 500,
+    seed: int = 0,
+    corners: bool = False,
+    mains_band: list[PartSpread] | None = None,
+    class_defaults: bool | None = None,
+    samples_per_cycle: int = sim.DEFAULT_SAMPLES_PER_CYCLE,
+    limits_file: str | None = None,
+    check_limits: bool = True,
+) -> SpreadPlan:
+    """Decide the toleranced values and the samples (or corners) of a run.
+
+    Solves the nominal design once (its solution warm-starts every sample).
+
+    Raises
+    ------
+    InputError
+        On a bad sample count or seed, or more corners than a corner analysis enumerates.
+    """
+    if not corners and samples < 1:
+        raise InputError(design.source, "--samples", "needs at least one sample")
+    if seed < 0:
+        raise InputError(design.source, "--seed", "must be a non-negative integer")
+    spreads = tuple(study_spreads(design, mains_band, class_defaults))
+    table, labels = None, ()
+    if corners:
+        table, lab = corner_values(spreads, file=design.source, where="--corners")
+        labels = tuple(lab)
+        n = len(table)
+    else:
+        n = int(samples)
+    nominal = sim.run(_sample_cases(design), samples_per_cycle)
+    return SpreadPlan(design, spreads, "corners" if corners else "monte-carlo", int(seed), n,
+                      table, labels, samples_per_cycle, tuple(r.x_start for r in nominal),
+                      limits_file, check_limits)
+
+
+def _slug(text: str) -> str:
+    return "_".join("".join(c if c.isalnum() else " " for c in text.lower()).split())
+
+
+def _unit_figures(design: Design, results: list, limits_file,
+                  check_limits: bool = True) -> tuple[dict, dict]:
+    """Scalars and failure flags of one unit from its solved cases."""
+    from ..limits.applicability import unit_compliance
+    from ..unit import UnitAnalysis
+
+    n_states = len(design.states)
+    states, eps_res = results[:n_states], results[n_states:]
+    figures, failing = {}, {}
+    for r in states:
+        q = r.pq
+        for name, value in (("p_w", q.p_w), ("s_va", q.s_va), ("i_rms_a", q.i_rms_a),
+                            ("pf", q.pf), ("thd_i_pct", q.thd_i_pct),
+                            ("v_out_min_v", r.v_out_min_v), ("v_dc_min_v", r.v_dc_min_v)):
+            figures[f"{r.state}|{name}"] = value
+        for label, w in r.losses_w.items():
+            figures[f"{r.state}|loss_{_slug(label)}_w"] = w
+        failing[f"regulation|state '{r.state}' out of regulation"] = not r.in_regulation
+    stresses = design.topology_impl.stresses(design, states)
+    for s in stresses:
+        figures[f"stress|{_slug(s.item)}_{_slug(s.unit)}"] = s.value
+        if s.verdict in ("pass", "fail"):
+            failing[f"stress|{s.item}"] = s.verdict == "fail"
+    eps = None
+    if eps_res:
+        from ..limits import average_active_efficiency
+
+        effs = [r.balance.delivered_w / r.pq.p_w for r in eps_res[1:]]
+        eps = (eps_res[0].pq.p_w, average_active_efficiency(effs), effs)
+        figures["eps|no_load_p_w"] = eps[0]
+        figures["eps|average_efficiency"] = eps[1]
+    if not check_limits:
+        return figures, failing
+    unit = UnitAnalysis(design=design, states=states, stresses=stresses, warnings=[],
+                        caution=None, max_deliverable_a=None, hand=None, eps=eps)
+    for row in unit_compliance(design, unit, limits_file=limits_file):
+        if row["verdict"] in ("pass", "fail"):
+            key = f"limit|{row['set']}: {row['quantity']}"
+            failing[key] = failing.get(key, False) or row["verdict"] == "fail"
+    return figures, failing
+
+
+@dataclass(frozen=True)
+class ChunkOutcome:
+    """Per-sample scalars and flags of one chunk (what travels back from a worker)."""
+
+    start: int
+    figures: dict[str, np.ndarray]
+    failing: dict[str, np.ndarray]
+    values: np.ndarray
+
+
+def _solve_units(designs: list[Design], warm, samples_per_cycle):
+    """Every case of every unit in one batch; per unit its results (None if unsolved)."""
+    per = [_sample_cases(d) for d in designs]
+    cases = [c for cs in per for c in cs]
+    initial = [w for cs in per for w in warm[: len(cs)]]
+    try:
+        flat = sim.run(cases, samples_per_cycle, cache=None, initial=initial)
+    except SolverError:
+        # one unit without a steady state must not sink the chunk: solve the units of
+        # this chunk one by one and mark the failing ones
+        out = []
+        for cs in per:
+            try:
+                out.append(sim.run(cs, samples_per_cycle, cache=None, initial=list(warm)))
+            except SolverError:
+                out.append(None)
+        return out
+    out, k = [], 0
+    for cs in per:
+        out.append(flat[k:k + len(cs)])
+        k += len(cs)
+    return out
+
+
+def evaluate_chunk(plan: SpreadPlan, bounds: tuple[int, int]) -> ChunkOutcome:
+    """Solve the samples ``bounds`` = (start, stop) of a run as one batch; keep scalars.
+
+    A module-level function of picklable arguments: the executors' work item.
+    """
+    start, stop = bounds
+    values = plan.values(start, stop)
+    designs = [sample_design(plan.design, plan.spreads, row) for row in values]
+    solved = _solve_units(designs, plan.warm, plan.samples_per_cycle)
+    rows_fig, rows_fail = [], []
+    for d, res in zip(designs, solved, strict=True):
+        if res is None:
+            rows_fig.append({})
+            rows_fail.append({"solver|no periodic steady state": True})
+            continue
+        f, x = _unit_figures(d, res, plan.limits_file, plan.check_limits)
+        x["solver|no periodic steady state"] = False
+        rows_fig.append(f)
+        rows_fail.append(x)
+    fig_names = list(dict.fromkeys(k for r in rows_fig for k in r))
+    fail_names = list(dict.fromkeys(k for r in rows_fail for k in r))
+    figures = {k: np.array([r.get(k, np.nan) for r in rows_fig], dtype=float)
+               for k in fig_names}
+    failing = {k: np.array([r.get(k, True if k.startswith("solver|") else False)
+                            for r in rows_fail], dtype=bool) for k in fail_names}
+    return ChunkOutcome(start, figures, failing, values)
+
+
+@dataclass(frozen=True)
+class AgeingResult:
+    """Year-by-year delivery of the heaviest state as the series capacitor ages."""
+
+    state: str
+    load_a: float
+    loss_per_year: float
+    voltage_accelerated: bool
+    years: tuple[int, ...]
+    capacitance_factor: tuple[float, ...]
+    delivering_fraction: tuple[float, ...]
+    v_dc_min_p5_v: tuple[float, ...]
+    charge_pump_nominal_a: tuple[float, ...]
+    units: int
+    #: first year at which fewer than 95 % of units deliver (the P5 unit fails), or None
+    p5_fails_year: int | None
+
+
+@dataclass(frozen=True)
+class SpreadResult:
+    """A spread run: its plan, the per-sample statistics, and ageing if asked."""
+
+    plan: SpreadPlan
+    statistics: SpreadStatistics
+    requested: int
+    done: int
+    interrupted: bool
+    solve_s: float
+    ageing: AgeingResult | None = None
+    values: dict[int, np.ndarray] = field(default_factory=dict)
+
+    def sample_values(self, index: int) -> dict[str, float]:
+        """Toleranced values of sample ``index`` (key path -> SI value)."""
+        row = self.values[index]
+        return {s.key: float(v) for s, v in zip(self.plan.spreads, row, strict=True)}
+
+    def label(self, index: int) -> str:
+        """How to name a sample: its corner, or its index."""
+        if self.plan.mode == "corners":
+            return self.plan.corner_labels[index]
+        return f"sample {index}"
+
+
+def run_spread(
+    plan: SpreadPlan,
+    *,
+    executor: Executor = local_executor,
+    chunk_size: int = DEFAULT_CHUNK,
+    progress: Progress | None = None,
+) -> SpreadResult:
+    """Solve every sample of a plan, chunk by chunk, through ``executor``.
+
+    An interrupt (Ctrl-C) ends the run after the chunk in flight; the result then holds
+    the samples done so far, ``interrupted`` set.
+    """
+    chunks = chunk_ranges(plan.n, chunk_size)
+    stats = SpreadStatistics()
+    values: dict[int, np.ndarray] = {}
+    done = 0
+
+    def on_done(i, outcome: ChunkOutcome):
+        nonlocal done
+        stats.add(outcome.start, outcome.figures, outcome.failing)
+        for j, row in enumerate(outcome.values):
+            values[outcome.start + j] = row
+        done += len(outcome.values)
+        if progress is not None:
+            progress(done, plan.n)
+
+    t0 = time.perf_counter()
+    interrupted = False
+    try:
+        executor(functools.partial(evaluate_chunk, plan), chunks, on_done=on_done)
+    except KeyboardInterrupt:
+        interrupted = True
+    return SpreadResult(plan, stats, plan.n, done, interrupted or done < plan.n,
+                        time.perf_counter() - t0, values=values)
+
+
+# ----------------------------------------------------------------------------------
+# ageing
+# ----------------------------------------------------------------------------------
+def heaviest_state(design: Design) -> str:
+    """The state drawing the largest output current (first in file order on a tie)."""
+    return max(design.states, key=design.load_current_a)
+
+
+def ageing_rate(design: Design) -> float:
+    """The design's capacitance loss rate [1/year] (declared or default; accelerated by
+    the voltage on the capacitor's ac rating when the design asks)."""
+    spec = design.spread
+    base = DEFAULT_LOSS_PER_YEAR if spec.capacitor_loss_per_year is None \
+        else spec.capacitor_loss_per_year
+    rating = getattr(design.parts, "capacitor_voltage_rating", None)
+    kind = getattr(design.parts, "capacitor_rating_type", "ac")
+    if spec.capacitor_loss_voltage_accelerated and rating is not None and kind == "ac":
+        return loss_rate_per_year(base, design.mains.voltage, rating)
+    return loss_rate_per_year(base)
+
+
+def evaluate_ageing_chunk(plan: SpreadPlan, years: tuple[int, ...], rate: float,
+                          bounds: tuple[int, int]) -> tuple[int, np.ndarray, np.ndarray]:
+    """Heaviest state of samples ``bounds`` at every year, in one batch.
+
+    Returns (start, in_regulation (samples, years), v_dc_min_v (samples, years)).
+    """
+    start, stop = bounds
+    state = heaviest_state(plan.design)
+    k = list(plan.design.states).index(state)
+    values = plan.values(start, stop)
+    cases = []
+    for row in values:
+        d = sample_design(plan.design, plan.spreads, row)
+        for y in years:
+            c = capacitance_at_year_f(d.parts.series_capacitance, y, rate)
+            aged = d.model_copy(update={"parts": d.parts.model_copy(
+                update={"series_capacitance": c})})
+            cases.append(sim.Case(aged, state))
+    try:
+        res = sim.run(cases, plan.samples_per_cycle, cache=None,
+                      initial=[plan.warm[k]] * len(cases))
+        ok = np.array([r.in_regulation for r in res])
+        vmin = np.array([r.v_dc_min_v for r in res])
+    except SolverError:
+        ok, vmin = np.zeros(len(cases), bool), np.full(len(cases), np.nan)
+        for j, c in enumerate(cases):
+            try:
+                (r,) = sim.run([c], plan.samples_per_cycle, cache=None, initial=[plan.warm[k]])
+                ok[j], vmin[j] = r.in_regulation, r.v_dc_min_v
+            except SolverError:
+                pass  # no steady state: counted as not delivering
+    shape = (stop - start, len(years))
+    return start, ok.reshape(shape), vmin.reshape(shape)
+
+
+def run_ageing(
+    plan: SpreadPlan,
+    years: int,
+    *,
+    units: int | None = None,
+    executor: Executor = local_executor,
+    chunk_size: int = DEFAULT_CHUNK,
+    progress: Progress | None = None,
+) -> AgeingResult:
+    """Whether each unit still delivers its heaviest state, year by year.
+
+    Parameters
+    ----------
+    plan : SpreadPlan
+        Its samples (or corners) are the units aged.
+    years : int
+        Last year evaluated; years 0..``years`` are solved.
+    units : int, optional
+        Age only the first ``units`` samples (default: all of the plan's).
+
+    Raises
+    ------
+    InputError
+        When the design has no series capacitor to age.
+    """
+    design = plan.design
+    if not hasattr(design.parts, "series_capacitance"):
+        raise InputError(design.source, "--years",
+                         "ageing applies to the series capacitor of a capacitive dropper; "
+                         f"a {design.topology} has none that sets its output")
+    if years < 0:
+        raise InputError(design.source, "--years", "cannot be negative")
+    n = plan.n if units is None else min(plan.n, units)
+    grid = tuple(range(years + 1))
+    rate = ageing_rate(design)
+    ok = np.zeros((n, len(grid)), bool)
+    vmin = np.full((n, len(grid)), np.nan)
+    done = 0
+
+    def on_done(i, out):
+        nonlocal done
+        start, o, v = out
+        ok[start:start + len(o)] = o
+        vmin[start:start + len(o)] = v
+        done += len(o)
+        if progress is not None:
+            progress(done, n)
+
+    work = functools.partial(evaluate_ageing_chunk, plan, grid, rate)
+    executor(work, chunk_ranges(n, max(1, chunk_size // len(grid))), on_done=on_done)
+    frac = ok.mean(axis=0)
+    p5_year = next((y for y, f in zip(grid, frac, strict=True) if f < P5_FRACTION), None)
+    state = heaviest_state(design)
+    factors = tuple(float(capacitance_at_year_f(1.0, y, rate)) for y in grid)
+    pump = tuple(charge_pump_limit_a(design.model_copy(update={"parts": design.parts.model_copy(
+        update={"series_capacitance": design.parts.series_capacitance * f})})) for f in factors)
+    return AgeingResult(
+        state=state, load_a=design.load_current_a(state), loss_per_year=rate,
+        voltage_accelerated=design.spread.capacitor_loss_voltage_accelerated,
+        years=grid, capacitance_factor=factors,
+        delivering_fraction=tuple(float(f) for f in frac),
+        v_dc_min_p5_v=tuple(float(np.nanpercentile(vmin[:, j], 5)) if np.isfinite(
+            vmin[:, j]).any() else float("nan") for j in range(len(grid))),
+        charge_pump_nominal_a=pump, units=n, p5_fails_year=p5_year)
