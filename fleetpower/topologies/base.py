@@ -34,7 +34,8 @@ DISCHARGE_SETS = ("iec62368-1-discharge", "iec60335-1-discharge")
 #: Usual inrush-resistor range for droppers [ohm] (common practice, no source)
 INRUSH_RESISTOR_RANGE_OHM = (10.0, 30.0)
 
-#: loss probe -> label in the loss budget (a topology may rename its series resistor)
+#: loss probe -> label in the loss budget (a topology may rename its series resistor and
+#: add labels of its own loss probes through ``extra_loss_labels``)
 LOSS_LABELS = {
     "p_series_resistor_w": "series resistor",
     "p_bleeder_w": "bleeder",
@@ -43,7 +44,6 @@ LOSS_LABELS = {
     "p_regulator_pass_w": "regulator (pass element)",
     "p_regulator_quiescent_w": "regulator (quiescent)",
     "p_converter_w": "converter",
-    "p_core_w": "transformer core",
 }
 
 
@@ -107,6 +107,8 @@ class Topology:
     dc_bias_reason: ClassVar[str] = "half-wave rectifier without a series capacitor"
     #: label of ``p_series_resistor_w`` in the loss budget
     series_resistor_label: ClassVar[str] = "series resistor"
+    #: labels of loss probes only this topology writes
+    extra_loss_labels: ClassVar[dict[str, str]] = {}
 
     def check(self, design: Design) -> None:
         """Cross-field checks of a validated design; raise ``InputError`` naming the key."""
@@ -122,7 +124,8 @@ class Topology:
         raise NotImplementedError
 
     def loss_labels(self) -> dict[str, str]:
-        return {**LOSS_LABELS, "p_series_resistor_w": self.series_resistor_label}
+        return {**LOSS_LABELS, **self.extra_loss_labels,
+                "p_series_resistor_w": self.series_resistor_label}
 
     def stresses(self, design: Design, stressed: list) -> list[Stress]:
         """Component stresses from the states simulated at +10 % mains."""

@@ -100,6 +100,7 @@ class MainsTransformer(Topology):
     output_model = LinearOutput
     dc_bias_reason = "a DC bias saturates a real transformer's core, which the model does not"
     series_resistor_label = "transformer windings"
+    extra_loss_labels = {"p_core_w": "transformer core"}
 
     def check(self, design):
         parts, out, file = design.parts, design.output, design.source
