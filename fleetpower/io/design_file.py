@@ -23,7 +23,7 @@ from ..errors import InputError, suggest
 from ..spread.tolerance import SpreadSpec, read_spread_table, split_tolerances
 from ..topologies import REGISTRY, TOPOLOGIES, Topology
 from ..units import parse_quantity
-from .schema import ConverterOutput, LinearOutput, Mains  # noqa: F401 (re-exported)
+from .schema import ConverterOutput, LinearOutput, Mains, RatedInput  # noqa: F401 (re-exported)
 from .toml import read_toml
 
 #: every topology's parts and output models, derived from the registry
@@ -57,6 +57,8 @@ class Design(BaseModel):
     #: declared tolerances, the mains band and the ageing settings (``[spread]``); the
     #: values above are the nominals
     spread: SpreadSpec = SpreadSpec()
+    #: input range on the rating label (universal input); None: rated for ``mains`` only
+    rated_input: RatedInput | None = None
     source: str = "<input>"
 
     @property

@@ -4,7 +4,7 @@ Every physical value is a string with its unit (``"3.3 uF"``, ``"120 V"``); pint
 dimension here and pydantic the range. The design file (:mod:`fleetpower.io.design_file`)
 and the topologies' parts models (:mod:`fleetpower.topologies`) are built from these.
 
-Owns: the quantity types, :class:`Strict`, :class:`Mains`, :class:`DiodeSpec` and the two
+Owns: the quantity types, :class:`Strict`, :class:`Mains`, :class:`RatedInput`, :class:`DiodeSpec` and the two
 output models. May import ``errors`` and ``units`` only.
 """
 
@@ -12,7 +12,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, model_validator
 
 from ..errors import InputError
 from ..units import parse_quantity
@@ -85,3 +85,18 @@ class ConverterOutput(Strict):
         min_length=1
     )
     undervoltage_lockout: Voltage
+
+
+class RatedInput(Strict):
+    """Input range on the supply's rating label (a universal-input converter: 90-264 V,
+    47-63 Hz). Without it the design's rating is its ``mains`` alone."""
+
+    voltage: tuple[Voltage, Voltage]
+    frequency: tuple[Frequency, Frequency] | None = None
+
+    @model_validator(mode="after")
+    def _ordered(self):
+        for name, pair in (("voltage", self.voltage), ("frequency", self.frequency)):
+            if pair is not None and pair[0] > pair[1]:
+                raise ValueError(f"{name}: the lower end comes first, e.g. [\"90 V\", \"264 V\"]")
+        return self
