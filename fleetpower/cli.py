@@ -168,7 +168,19 @@ def cmd_fleet(args) -> int:
 
     spec = load_fleet(args.fleet)
     _engine_ready()
+    notes = []
+    if args.at is not None:
+        from .spread.study import fleet_at_percentile, parse_percentile
+
+        at = parse_percentile(args.at, file=args.fleet)
+        with _status(f"drawing each design's spread for its P{at:g} unit"):
+            spec, notes = fleet_at_percentile(spec, at, samples=args.at_samples)
     result = evaluate_fleet(spec, progress=_progress_printer())
+    if notes:
+        from dataclasses import replace
+
+        result = replace(result, warnings=[f"designs enter at a percentile: {n}"
+                                           for n in notes] + list(result.warnings))
     report = fleet_to_dict(result)
     if args.csv:
         write_atomic(args.csv, result.groups.to_csv(index=False))
@@ -192,8 +204,14 @@ def cmd_compare(args) -> int:
 
         require_matplotlib()
     _engine_ready()
+    at = None
+    if getattr(args, "at", None) is not None:
+        from .spread.study import parse_percentile
+
+        at = parse_percentile(args.at, file=args.fleet)
     cmp = run_compare(args.fleet, args.design, args.years, args.rate, args.escalation,
-                      progress=_progress_printer("candidate"))
+                      progress=_progress_printer("candidate"), at=at,
+                      at_samples=getattr(args, "at_samples", 100))
     report = compare_to_dict(cmp)
     written = []
     if args.csv:
@@ -391,6 +409,11 @@ def build_parser() -> argparse.ArgumentParser:
     fl.add_argument("--csv", metavar="OUT", help="write the per-group table to this CSV file")
     fl.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
     fl.add_argument("--strict", action="store_true", help=_STRICT_HELP)
+    fl.add_argument("--at", metavar="P95",
+                    help="each design enters as the unit at this percentile of its own "
+                         "spread of input power (see `spread`), not at its nominals")
+    fl.add_argument("--at-samples", type=int, default=100, metavar="N",
+                    help="units drawn per design for --at (default 100)")
     fl.set_defaults(func=cmd_fleet)
     cp = _verb(sub, "compare", "candidate designs over the same fleet's life")
     cp.add_argument("fleet", help="fleet file (TOML)")
@@ -399,6 +422,11 @@ def build_parser() -> argparse.ArgumentParser:
     cp.add_argument("--years", type=int, help="service life [years] (default 10)")
     cp.add_argument("--rate", type=float, help="discount rate per year, e.g. 0.05")
     cp.add_argument("--escalation", type=float, help="energy price escalation per year")
+    cp.add_argument("--at", metavar="P95",
+                    help="each design enters as the unit at this percentile of its own "
+                         "spread of input power (see `spread`), not at its nominals")
+    cp.add_argument("--at-samples", type=int, default=100, metavar="N",
+                    help="units drawn per design for --at (default 100)")
     _add_outputs(cp)
     cp.set_defaults(func=cmd_compare)
     sp = _verb(sub, "spread", "a production run: part tolerances, the mains band, ageing")

@@ -71,6 +71,8 @@ class Comparison:
     candidates: list[Candidate]
     paybacks: list[dict]
     recommendation: str
+    #: what the designs enter as: None for their nominals, else e.g. "P95 of its own spread"
+    basis: str | None = None
 
 
 def replace_role(spec: FleetSpec, path: Path, design: Design) -> tuple[FleetSpec, int]:
@@ -121,6 +123,9 @@ def compare(
     rate: float | None = None,
     escalation: float | None = None,
     progress=None,
+    at: float | None = None,
+    at_samples: int = 100,
+    at_seed: int = 0,
 ) -> Comparison:
     """Evaluate each candidate design on the same fleet and over the same life.
 
@@ -161,6 +166,10 @@ def compare(
         seen.add(path)
         design = load_design(path)
         new_spec, replaced = replace_role(spec, path, design)
+        if at is not None:
+            from .spread.study import fleet_at_percentile
+
+            new_spec, _ = fleet_at_percentile(new_spec, at, samples=at_samples, seed=at_seed)
         on_site = new_spec.designs[path]
         if progress:
             progress(k + 1, len(design_paths), design.name)
@@ -194,6 +203,8 @@ def compare(
         fleet_name=spec.name, fleet_file=spec.file, currency=spec.site.currency,
         years=years, rate=rate, escalation=esc, candidates=candidates, paybacks=paybacks,
         recommendation=recommend(candidates, years, spec.site.currency),
+        basis=None if at is None else (f"each design at P{at:g} of its own spread of input "
+                                       f"power ({at_samples} units, seed {at_seed})"),
     )
 
 

@@ -164,3 +164,40 @@ def test_spread_cli_json_and_corners(tmp_path, cli):
     # the most line current at the corner with the most capacitance (X_C = 1/(2 pi f C))
     assert worst[("idle", "i_rms_a")]["unit"].startswith("series_capacitance high")
     assert rep["caution"].startswith("NOT ISOLATED")
+
+
+def test_percentile_unit_is_numpys_nearest_rank_of_its_spread():
+    from fleetpower import simulate as sim
+    from fleetpower.spread.study import parse_percentile, percentile_design
+
+    d = _design(spread={"part_class_defaults": False})  # two declared parts, no mains band
+    p95, note = percentile_design(d, 95, samples=8, seed=3)
+    assert "P95" in note and "8 units" in note
+    plan = plan_spread(d, samples=8, seed=3, check_limits=False)
+    assert [s.key for s in plan.spreads] == ["parts.series_capacitance",
+                                             "parts.zener_voltage"]
+
+    def mean_p(unit):
+        return np.mean([r.pq.p_w for r in sim.run([sim.Case(unit, s) for s in unit.states])])
+
+    ranks = [mean_p(sample_design(d, plan.spreads, row)) for row in plan.values(0, 8)]
+    # the unit returned is numpy's nearest-rank percentile of the units' mean input power
+    # (numpy.percentile, method "nearest")
+    assert mean_p(p95) == pytest.approx(np.percentile(ranks, 95, method="nearest"), rel=1e-6)
+    assert parse_percentile("P95") == 95.0 and parse_percentile("5") == 5.0
+    for bad in ("P101", "top"):
+        with pytest.raises(Exception, match="percentile"):
+            parse_percentile(bad)
+
+
+def test_fleet_at_a_percentile_says_so(cli):
+    from conftest import example_path
+
+    rc, out, err = cli("fleet", example_path("harbour-office"), "--at", "P95",
+                       "--at-samples", "4", "--json")
+    assert rc == 0, err
+    rep = json.loads(out)
+    notes = [w for w in rep["warnings"] if w.startswith("designs enter at a percentile")]
+    assert notes and all("P95 of its own spread" in w for w in notes)
+    rc, out, err = cli("fleet", example_path("harbour-office"), "--at", "P150")
+    assert rc == 2 and "--at" in err and len(err.splitlines()) == 1

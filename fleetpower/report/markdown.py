@@ -28,6 +28,8 @@ def compare_markdown(d: dict) -> str:
     lines.append("| failed checks | " + " | ".join(
         (", ".join(x["failures"]) or "none") for x in d["designs"]) + " |")
     lines += ["", "## Recommendation", "", d["recommendation"], ""]
+    if d.get("basis"):
+        lines += [f"Designs enter as: {d['basis']}.", ""]
     if d["paybacks"]:
         lines += ["## Payback", ""] + [f"- {p['reason']}" for p in d["paybacks"]] + [""]
     lines += ["## What drives the difference", ""] + \

@@ -267,6 +267,7 @@ def compare_to_dict(cmp) -> dict:
         "designs": designs,
         "paybacks": cmp.paybacks,
         "recommendation": cmp.recommendation,
+        **({"basis": cmp.basis} if getattr(cmp, "basis", None) else {}),
         "caution": (None if all(c.design.is_isolated for c in cmp.candidates)
                     else "Non-isolated candidates put everything on their output at mains "
                          "potential; enclose them fully and follow local codes and licensed "

@@ -318,6 +318,8 @@ def render_compare(d: dict, console: Console) -> None:
     if d.get("caution"):
         console.print(Panel(Text(d["caution"], style="bold"), title="SAFETY",
                             border_style="red", box=box.DOUBLE))
+    if d.get("basis"):
+        console.print(Text(f"Designs enter as: {d['basis']}", style="bold"))
     console.print(Panel(Text(d["recommendation"], style="bold"), title="Recommendation",
                         title_align="left", box=box.ROUNDED))
 

@@ -477,3 +477,89 @@ def run_ageing(
         v_dc_min_p5_v=tuple(float(np.nanpercentile(vmin[:, j], 5)) if np.isfinite(
             vmin[:, j]).any() else float("nan") for j in range(len(grid))),
         charge_pump_nominal_a=pump, units=n, p5_fails_year=p5_year)
+
+
+# ----------------------------------------------------------------------------------
+# a design at a percentile of its own spread (for fleets and comparisons)
+# ----------------------------------------------------------------------------------
+def parse_percentile(text: str, *, file: str = "<input>", key: str = "--at") -> float:
+    """Read ``"P95"`` (or ``"95"``) as 95.0; one-line InputError otherwise."""
+    raw = str(text).strip().upper().removeprefix("P")
+    try:
+        value = float(raw)
+    except ValueError:
+        raise InputError(file, key, f"{text!r} is not a percentile such as P95") from None
+    if not 0.0 <= value <= 100.0:
+        raise InputError(file, key, f"{text!r} is not a percentile between P0 and P100")
+    return value
+
+
+def percentile_design(
+    design: Design, percentile: float, *, samples: int = 100, seed: int = 0,
+    executor: Executor = local_executor,
+) -> tuple[Design, str]:
+    """The unit of a design's production spread at ``percentile`` of its input power.
+
+    The design's parts spread as declared (with the part-class defaults unless the design
+    turns them off); its mains stay as given (a fleet's site sets them). Units are ranked
+    by their input power averaged over the design's states; the unit of rank
+    ``round(percentile / 100 * (n - 1))`` (nearest rank) is returned as a design.
+
+    Returns
+    -------
+    design : Design
+        The percentile unit (same name and source; its parts are the unit's values).
+    note : str
+        One line saying which unit entered and how it was chosen.
+    """
+    spreads = [s for s in study_spreads(design) if not s.key.startswith("mains.")]
+    plan = SpreadPlan(design, tuple(spreads), "monte-carlo", int(seed), int(samples), None, (),
+                      sim.DEFAULT_SAMPLES_PER_CYCLE,
+                      tuple(r.x_start for r in sim.run(_sample_cases(design))),
+                      check_limits=False)
+    res = run_spread(plan, executor=executor)
+    if res.interrupted:
+        raise KeyboardInterrupt
+    p_mean = np.mean([res.statistics.values(f"{s}|p_w") for s in design.states], axis=0)
+    p_mean = np.where(np.isfinite(p_mean), p_mean, np.inf)  # unsolved units rank last
+    order = np.argsort(p_mean, kind="stable")
+    rank = int(round(percentile / 100.0 * (len(order) - 1)))
+    idx = int(res.statistics.sample_indices()[order[rank]])
+    unit = sample_design(design, plan.spreads, res.values[idx])
+    note = (f"{design.name}: the unit at P{percentile:g} of its own spread of input power "
+            f"({samples} units, seed {seed}, {len(spreads)} toleranced parts; sample {idx}, "
+            f"{p_mean[order[rank]]:.4g} W averaged over its states)")
+    return unit, note
+
+
+_PERCENTILE_UNITS: dict[tuple, tuple[Design, str]] = {}
+
+
+def fleet_at_percentile(spec, percentile: float, *, samples: int = 100, seed: int = 0):
+    """A fleet whose every design enters at ``percentile`` of its own spread.
+
+    Parameters
+    ----------
+    spec : FleetSpec
+        The fleet (its designs already on the site's mains).
+    percentile : float
+        E.g. 95 for the P95 unit (:func:`percentile_design`).
+
+    Returns
+    -------
+    spec : FleetSpec
+        The same fleet with each design replaced by its percentile unit.
+    notes : list of str
+        One line per design saying so (for the report).
+    """
+    from dataclasses import replace
+
+    designs, notes = {}, []
+    for path, design in spec.designs.items():
+        key = (sim.design_key(design), float(percentile), int(samples), int(seed))
+        if key not in _PERCENTILE_UNITS:
+            _PERCENTILE_UNITS[key] = percentile_design(design, percentile, samples=samples,
+                                                       seed=seed)
+        designs[path], note = _PERCENTILE_UNITS[key]
+        notes.append(note)
+    return replace(spec, designs=designs), notes
