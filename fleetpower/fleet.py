@@ -120,6 +120,76 @@ def _phase_split(count: int, phase: str, phases: list[str]) -> dict[str, int]:
     return {p: base + (1 if k < extra else 0) for k, p in enumerate(phases)}
 
 
+def _units_on_phases(groups, phases: list[str]) -> np.ndarray:
+    """(groups, phases) array of units: a balanced group split as evenly as whole units go."""
+    out = np.zeros((len(groups), len(phases)))
+    where = {p: k for k, p in enumerate(phases)}
+    for k, g in enumerate(groups):
+        if g.phase != "balanced":
+            out[k, where[g.phase]] = g.count
+        else:
+            for p, n in _phase_split(g.count, g.phase, phases).items():
+                out[k, where[p]] = n
+    return out
+
+
+_CHUNK = 20_000  # groups per accumulation step (bounds the index arrays' memory)
+
+
+def _accumulate(w, groups, on_phase, cols_d, gid, addend) -> None:
+    """``w[t, p, cols(g)] += units(g, p) * addend(g)[t]`` for every group, in order.
+
+    ``addend(g)`` is an (hours, states) array such as the group's occupancy. The additions
+    into each element of ``w`` happen in the groups' order (``np.add.at`` is sequential), so
+    the sums are the same, bit for bit, as a loop over the groups.
+    """
+    n_t, n_p, n_k = w.shape
+    flat = w.reshape(-1)
+    t_idx = np.arange(n_t)[:, None] * (n_p * n_k)
+    templates = [(t_idx + c[None, :]).ravel() for c in cols_d]
+    for lo in range(0, len(groups), _CHUNK):
+        chunk = groups[lo:lo + _CHUNK]
+        values = [addend(g).ravel() for g in chunk]
+        seg = np.array([len(x) for x in values])
+        values = np.concatenate(values)
+        idx = np.concatenate([templates[d] for d in gid[lo:lo + _CHUNK]])
+        for p in range(n_p):
+            n = np.repeat(on_phase[lo:lo + _CHUNK, p], seg)
+            nz = n != 0  # a phase a group has no units on adds nothing
+            np.add.at(flat, idx[nz] + p * n_k, n[nz] * values[nz])
+
+
+def _group_rows(spec, cat, groups, gid, tariff) -> dict:
+    """The per-group table's columns (energy, cost, mean and peak figures per unit)."""
+    paths = list(spec.designs)
+    p_d = [np.array([cat[pa][s].pq.p_w for s in spec.designs[pa].states]) for pa in paths]
+    q_d = [np.array([cat[pa][s].pq.q1_var for s in spec.designs[pa].states]) for pa in paths]
+    s_max = [float(max(cat[pa][s].pq.s_va for s in spec.designs[pa].states)) for pa in paths]
+    counts = np.array([g.count for g in groups], dtype=float)
+    p_unit = np.empty((len(groups), HOURS))
+    q_mean = np.empty(len(groups))
+    for d in range(len(paths)):
+        sel = np.flatnonzero(gid == d)
+        if not sel.size:
+            continue
+        occ = np.stack([groups[k].occupancy for k in sel])  # (g, 24, states)
+        p_unit[sel] = occ @ p_d[d]
+        q_mean[sel] = (occ @ q_d[d]).mean(axis=1)
+    e_day_kwh = counts * p_unit.sum(axis=1) / 1e3
+    cost_day = counts * ((p_unit / 1e3) @ tariff.energy_price_by_hour)
+    names = [spec.designs[pa].name for pa in paths]
+    files = [str(pa.name) for pa in paths]
+    return {
+        "group": [g.name for g in groups], "design": [names[d] for d in gid],
+        "design_file": [files[d] for d in gid], "count": [g.count for g in groups],
+        "phase": [g.phase for g in groups],
+        "p_unit_mean_w": p_unit.mean(axis=1), "q1_unit_mean_var": q_mean,
+        "s_unit_max_va": [s_max[d] for d in gid],
+        "e_kwh_per_year": e_day_kwh * DAYS_PER_YEAR,
+        "energy_cost_per_year": cost_day * DAYS_PER_YEAR,
+    }
+
+
 def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None) -> FleetResult:
     """Evaluate a fleet: per-phase and neutral currents, powers, energy, cost, limits.
 
@@ -144,31 +214,16 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
             keys.append((path, s))
     kidx = {k: n for n, k in enumerate(keys)}
     n_k, n_p = len(keys), len(phases)
+    groups = spec.groups
+    on_phase = _units_on_phases(groups, phases)  # (groups, phases) whole units
+    # per design: its columns in the design-state axis and its per-unit figures
+    design_ids = {path: n for n, path in enumerate(spec.designs)}
+    cols_d = [np.array([kidx[(path, s)] for s in d.states]) for path, d in spec.designs.items()]
+    gid = np.array([design_ids[g.design_path] for g in groups], dtype=np.int64)
     w = np.zeros((HOURS, n_p, n_k))
-    w_peak_extra = []  # groups with a coincident (diversity) peak case
-    rows = []
-    for g in spec.groups:
-        split = _phase_split(g.count, g.phase, phases)
-        cols = [kidx[(g.design_path, s)] for s in g.states]
-        for p, n in split.items():
-            w[:, phases.index(p), cols] += n * g.occupancy
-        figs = [cat[g.design_path][s] for s in g.states]
-        p_state = np.array([f.pq.p_w for f in figs])
-        q_state = np.array([f.pq.q1_var for f in figs])
-        p_unit_t = g.occupancy @ p_state
-        e_day_kwh = g.count * p_unit_t.sum() / 1e3
-        cost_day = g.count * float((p_unit_t / 1e3) @ tariff.energy_price_by_hour)
-        rows.append({
-            "group": g.name, "design": spec.designs[g.design_path].name,
-            "design_file": str(g.design_path.name), "count": g.count, "phase": g.phase,
-            "p_unit_mean_w": float(p_unit_t.mean()),
-            "q1_unit_mean_var": float((g.occupancy @ q_state).mean()),
-            "s_unit_max_va": float(max(f.pq.s_va for f in figs)),
-            "e_kwh_per_year": e_day_kwh * DAYS_PER_YEAR,
-            "energy_cost_per_year": cost_day * DAYS_PER_YEAR,
-        })
-        if g.peak_occupancy is not None:
-            w_peak_extra.append((g, split, cols))
+    _accumulate(w, groups, on_phase, cols_d, gid, lambda g: g.occupancy)
+    rows = _group_rows(spec, cat, groups, gid, tariff)
+    w_peak_extra = [k for k, g in enumerate(groups) if g.peak_occupancy is not None]
     p_k = np.array([cat[pa][s].pq.p_w for pa, s in keys])
     q_k = np.array([cat[pa][s].pq.q1_var for pa, s in keys])
     spectra_k = {key: cat[key[0]][key[1]].i_h_vs_v_a for key in keys}
@@ -182,12 +237,10 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     if w_peak_extra:
         # coincident cases: every hour again, with the groups that give a diversity (and
         # hours per day) at their coincident occupancy instead of their daily mean
-        for t in range(HOURS):
-            wc = w[t].copy()
-            for g, split, cols in w_peak_extra:
-                for p, n in split.items():
-                    wc[phases.index(p), cols] += n * (g.peak_occupancy - g.occupancy[t])
-            w_cases.append(wc)
+        wc = w.copy()
+        _accumulate(wc, [groups[k] for k in w_peak_extra], on_phase[w_peak_extra], cols_d,
+                    gid[w_peak_extra], lambda g: g.peak_occupancy[None, :] - g.occupancy)
+        w_cases += list(wc)
     spectra = np.einsum("cpk,kh->cph", np.array(w_cases), i_k)  # (cases, n_p, n_h)
     phasor_spectra = spectra  # the neutral is always built from these
     if spec.summation == "iec61000-3-6":

@@ -27,6 +27,7 @@ from .toml import read_toml
 SYSTEMS = {"single-phase": "single", "split-phase": "split", "three-phase-wye": "wye"}
 SUMMATIONS = ("phasor", "iec61000-3-6")
 HOURS = 24
+_HOUR_INDEX = np.arange(HOURS)
 
 
 # ----------------------------------------------------------------------------------
@@ -194,10 +195,16 @@ def _tariff(file: str, d: Any) -> Tariff:
     )
 
 
-def _occupancy(file, where, design: Design, hours, profile, diversity):
+def _state_order(design: Design) -> tuple[tuple[str, ...], int, int]:
+    """(states in file order, index of the lightest load, index of the heaviest)."""
     states = tuple(design.states)
     light = states.index(min(states, key=design.load_current_a))
     heavy = states.index(max(states, key=design.load_current_a))
+    return states, light, heavy
+
+
+def _occupancy(file, where, design: Design, hours, profile, diversity, order=None):
+    states, light, heavy = order or _state_order(design)
     occ = np.zeros((HOURS, len(states)))
     peak = None
     if (hours is None) == (profile is None):
@@ -227,21 +234,29 @@ def _occupancy(file, where, design: Design, hours, profile, diversity):
     else:
         if not isinstance(profile, list) or len(profile) != HOURS:
             raise InputError(file, f"{where}profile", "needs 24 state names, one per hour")
-        for t, s in enumerate(profile):
-            if s not in design.states:
-                raise InputError(file, f"{where}profile[{t}]", f"unknown state {s!r} of "
-                                 f"design '{design.name}'{suggest(str(s), design.states)}")
-            occ[t, states.index(s)] += d
-            occ[t, light] += 1.0 - d
+        index = {s: k for k, s in enumerate(states)}
+        cols = [index.get(s, -1) if isinstance(s, str) else -1 for s in profile]
+        if -1 in cols:
+            t = cols.index(-1)
+            s = profile[t]
+            raise InputError(file, f"{where}profile[{t}]", f"unknown state {s!r} of "
+                             f"design '{design.name}'{suggest(str(s), design.states)}")
+        occ[_HOUR_INDEX, cols] += d  # one state per hour: no index repeats
+        occ[:, light] += 1.0 - d
     return occ, peak, states
 
 
 def _design(file, where, ref, base: Path, site: Site, cache: dict) -> tuple[Path, Design]:
     if not isinstance(ref, str) or not ref:
         raise InputError(file, f"{where}design", "expected the path of a design file")
+    refs = cache.setdefault("refs", {})  # str keys: neither designs nor nominal mains
+    known = refs.get((base, ref))
+    if known is not None:
+        return known, cache[known]
     path = (base / ref).resolve()
     if not path.is_file():
         raise InputError(file, f"{where}design", f"design file not found: {ref}")
+    refs[(base, ref)] = path
     if path not in cache:
         d = load_design(path)
         cache[path] = d.on_mains(site.v_ln_v, site.f_hz)
@@ -257,13 +272,19 @@ def _group(file, where, g: dict, base: Path, site: Site, cache: dict, index: int
     path, design = _design(file, where, g["design"], base, site, cache)
     count = _number(file, f"{where}count", g["count"], positive=True, integer=True)
     phase = g["phase"]
-    allowed = site.phases + ["balanced"]
+    allowed = cache.get("phases")
+    if allowed is None:
+        allowed = cache["phases"] = site.phases + ["balanced"]
     if phase not in allowed:
         raise InputError(file, f"{where}phase", f"unknown phase {phase!r}"
                          f"{suggest(str(phase), allowed)}; this {site.system_label} site has "
                          f"{', '.join(allowed)}")
+    orders = cache.setdefault("orders", {})
+    order = orders.get(path)
+    if order is None:
+        order = orders[path] = _state_order(design)
     occ, peak, states = _occupancy(file, where, design, g.get("hours"), g.get("profile"),
-                                   g.get("diversity"))
+                                   g.get("diversity"), order)
     name = str(g.get("name", f"group {index + 1}"))
     return Group(name, path, int(count), phase, occ, peak, states, where.rstrip("."))
 
@@ -295,7 +316,9 @@ def _inventory(file: str, ref: str, base: Path, site: Site, cache: dict, start: 
     for col in sorted(required - set(df.columns)):
         raise InputError(inv, "row 1", f"missing column {col!r}")
     groups = []
-    for k, row in enumerate(df.to_dict("records")):
+    columns = list(df.columns)
+    for k, values in enumerate(zip(*(df[c].tolist() for c in columns), strict=True)):
+        row = dict(zip(columns, values, strict=True))
         where = f"row {k + 2}, column "
         g: dict[str, Any] = {"design": row["design"], "phase": row["phase"]}
         if row.get("name"):
