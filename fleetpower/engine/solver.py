@@ -45,6 +45,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 from numba import njit, prange
 
@@ -548,7 +549,15 @@ def solve_periodic(
     xs = np.empty((batch, n + 1, N_STATES))
     pr = np.empty((batch, n, N_PROBES))
     info = np.zeros((batch, 3))
-    _shoot_batch(params, x0, n, xs, pr, info)
+    if batch == 1:  # one row: no worker threads to wake and spin (2x on a busy machine)
+        threads = numba.get_num_threads()
+        numba.set_num_threads(1)
+        try:
+            _shoot_batch(params, x0, n, xs, pr, info)
+        finally:
+            numba.set_num_threads(threads)
+    else:
+        _shoot_batch(params, x0, n, xs, pr, info)
     bad = np.flatnonzero(info[:, 0] != STATUS_OK)
     if bad.size and raise_on_failure:
         b = int(bad[0])
