@@ -122,17 +122,18 @@ def cmd_limits(args) -> int:
 
     console = _console(args)
     if args.set is None:
-        df = L.list_limit_sets()
+        if args.json:
+            print(L.list_limit_sets().to_json(orient="records", indent=2))
+            return 0
+        from .limits.catalogue import set_summaries  # without pandas: a quick listing
+
         t = Table(title="Limit sets shipped (data/limits/)", title_justify="left")
         for col in ("set", "title", "edition", "clause", "provenance", "rows"):
             t.add_column(col, overflow="fold")
-        for row in df.itertuples(index=False):
-            t.add_row(*[str(getattr(row, c)) for c in ("set", "title", "edition", "clause",
-                                                        "provenance", "rows")])
-        if args.json:
-            print(df.to_json(orient="records", indent=2))
-        else:
-            console.print(t)
+        for row in set_summaries():
+            t.add_row(*[str(row[c]) for c in ("set", "title", "edition", "clause",
+                                              "provenance", "rows")])
+        console.print(t)
         return 0
     df = L.load_limit_set(args.set)
     if args.json:

@@ -96,3 +96,11 @@ def test_written_files_are_named_on_stderr(tmp_path):
     assert code == 0 and out_csv.is_file()
     assert f"wrote {out_csv}" in err
     json.loads(out)  # stdout stays pure JSON
+
+
+def test_quick_limit_listing_agrees_with_the_validated_tables():
+    # source: the project's own tables module (pandas, validated) is the reference
+    from fleetpower.limits import list_limit_sets
+    from fleetpower.limits.catalogue import set_summaries
+
+    assert set_summaries() == list_limit_sets().to_dict("records")

@@ -12,19 +12,26 @@ The public names of ``tables`` and ``rules`` are re-exported here
 imported here: it reads a unit's analysis, and ``tables`` must stay importable from below it.
 """
 
-from .rules import (
-    average_active_efficiency,
-    evaluate_discharge,
-    evaluate_eps,
-    evaluate_harmonic_emissions,
-    evaluate_ieee519,
-    evaluate_ieee519_voltage,
-    evaluate_standby,
-    evaluate_user_set,
-    formula_limit,
-    ieee519_row,
-)
-from .tables import COLUMNS, ComplianceRow, limits_dir, list_limit_sets, load_limit_set, margin
+import importlib
+
+#: public name -> the submodule that defines it; imported on first use, so that a quick
+#: command (``fleetpower limits``) does not pay for pandas
+_EXPORTS = {
+    **dict.fromkeys(
+        ("average_active_efficiency", "evaluate_discharge", "evaluate_eps",
+         "evaluate_harmonic_emissions", "evaluate_ieee519", "evaluate_ieee519_voltage",
+         "evaluate_standby", "evaluate_user_set", "formula_limit", "ieee519_row"),
+        "rules"),
+    **dict.fromkeys(("COLUMNS", "ComplianceRow", "limits_dir", "list_limit_sets",
+                     "load_limit_set", "margin"), "tables"),
+}
+
+
+def __getattr__(name: str):
+    if name in _EXPORTS:
+        return getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
 
 __all__ = [
     "COLUMNS",
