@@ -15,6 +15,7 @@ from pathlib import Path
 import pandas as pd
 
 from . import economics as E
+from .economics import life_problem, rate_problem
 from .errors import InputError
 from .fleet import FleetResult, evaluate_fleet, unit_catalogue
 from .io.design_file import Design, load_design
@@ -53,7 +54,7 @@ class Candidate:
         out = [f"{r['set']} {r['quantity']}" for r in self.unit_compliance
                if r["verdict"] == "fail"]
         out += [f"stress: {s.item}" for s in self.unit.stresses if s.verdict == "fail"]
-        out += [f"IEEE 519 {r['quantity']}" for r in self.fleet.compliance
+        out += [f"IEEE 519 {r['quantity']} on {r['phase']}" for r in self.fleet.compliance
                 if r["verdict"] == "fail"]
         out += [f"{c['conductor']} conductor {c['used_pct']:.0f} %"
                 for c in self.fleet.conductors if c["verdict"] == "over"]
@@ -151,12 +152,15 @@ def compare(
         raise InputError(str(fleet_path), "--design", "name at least one candidate design")
     spec = load_fleet(fleet_path)
     econ = spec.economics
+    for option, value, why in (("--years", years, life_problem),
+                               ("--rate", rate, rate_problem),
+                               ("--escalation", escalation, rate_problem)):
+        if value is not None and why(value):
+            raise InputError("compare", option, why(value))
     years = int(econ.get("service_life_years", DEFAULT_YEARS) if years is None else years)
     rate = float(econ.get("discount_rate", DEFAULT_RATE) if rate is None else rate)
     esc = float(econ.get("energy_escalation", DEFAULT_ESCALATION)
                 if escalation is None else escalation)
-    if years <= 0:
-        raise InputError(str(fleet_path), "years", "the service life must be at least 1 year")
     candidates = []
     seen = set()
     for k, dp in enumerate(design_paths):
@@ -240,7 +244,6 @@ def comparison_table(cmp: Comparison) -> pd.DataFrame:
         light = by[lightest_state(d)]
         heavy = by[max(d.states, key=d.load_current_a)]
         rated = by[rated_state(d)]
-        worst = max(c.fleet.phases, key=lambda f: f.i_rms_a)
         rows.append({
             "design": c.label,
             "name": d.name,
@@ -256,8 +259,8 @@ def comparison_table(cmp: Comparison) -> pd.DataFrame:
             "fleet_p_kw": c.fleet.p_kw,
             "fleet_s_kva": c.fleet.s_kva,
             "fleet_q1_kvar": c.fleet.q1_kvar,
-            "phase_i_rms_a": worst.i_rms_a,
-            "neutral_i_rms_a": c.fleet.neutral_i_rms_a,
+            "phase_i_rms_a": c.fleet.worst_phase["i_rms_a"],
+            "neutral_i_rms_a": c.fleet.neutral_max["i_rms_a"],
             "e_kwh_per_year": c.fleet.e_kwh_per_year,
             "running_cost_per_year": c.annual_cost,
             "co2_kg_per_year": c.fleet.co2_kg_per_year,

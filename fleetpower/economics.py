@@ -38,7 +38,50 @@ __all__ = [
     "demand_cost",
     "reactive_energy_cost",
     "co2_kg",
+    "rate_problem",
+    "life_problem",
 ]
+
+
+def rate_problem(rate_per_year: float) -> str | None:
+    """Why a discount or escalation rate is not usable, or None when it is.
+
+    Parameters
+    ----------
+    rate_per_year : float
+        Rate as a fraction per year [1/year] (0.06 is 6 %/year).
+
+    Returns
+    -------
+    str or None
+        A short reason: not finite; at or below -100 %/year (the discount factor
+        ``(1 + r)**-k`` is undefined or changes sign there); or 100 %/year or more, which
+        is almost certainly a percentage written as a whole number (6 for 6 %).
+
+    Notes
+    -----
+    The upper bound is this project's reading of "absurd": a rate of 1.0 doubles money
+    every year; no utility tariff or cost of capital comes near it (common practice, no
+    source). Rates between -100 % and 0 are accepted (falling energy prices, negative
+    real rates).
+    """
+    r = float(rate_per_year)
+    if not np.isfinite(r):
+        return f"must be a finite number, got {rate_per_year!r}"
+    if r <= -1.0:
+        return f"{r:g} is -100 %/year or less; give a rate as a fraction above -1"
+    if r >= 1.0:
+        return (f"{r:g} means {r * 100:g} %/year; give a rate as a fraction "
+                f"({r:g} % is {r / 100:g})")
+    return None
+
+
+def life_problem(years: float) -> str | None:
+    """Why a service life is not usable (must be a whole number of years >= 1), or None."""
+    y = float(years)
+    if not np.isfinite(y) or y < 1 or not y.is_integer():
+        return f"must be a whole number of years, at least 1, got {years!r}"
+    return None
 
 
 def _check_rate(rate_per_year) -> np.ndarray:

@@ -16,7 +16,7 @@ spectrum referred to its own voltage and rotated into L1's frame for the neutral
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -26,9 +26,9 @@ from . import economics as E
 from . import limits as L
 from .io.design_file import Design
 from .io.fleet_file import HOURS, FleetSpec
-from .pq.derating import conductor_loading, harmonic_loss_factor, k_factor, tdd_pct
+from .pq.derating import conductor_loading, harmonic_loss_factor, k_factor_to_order, tdd_pct
 from .pq.ieee1459 import power_totals
-from .pq.polyphase import neutral_current, sum_iec61000_3_6
+from .pq.polyphase import neutral_current, rms_from_spectrum, sum_iec61000_3_6, to_common_frame
 from .pq.spectrum import H_MAX, thd_pct
 from .simulate import Case, StateResult, run
 
@@ -72,6 +72,9 @@ class PhaseFigures:
     k_factor: float
     f_hl: float
     i_h_a: np.ndarray  # h = 0..H_MAX, own-phase frame
+    k_factor_h_max: int = H_MAX  # highest order the K-factor sums
+    i_rms_max_a: float = 0.0  # largest rms over every hour and peak case [A]
+    i_rms_max_case: str = ""
 
 
 @dataclass(frozen=True)
@@ -106,6 +109,12 @@ class FleetResult:
     conductors: list[dict]
     groups: pd.DataFrame
     warnings: list[str]
+    pf_basis: str = ""
+    pf_arith: float = float("nan")
+    peak_case: str = ""  # the demand peak (basis of the demand charge and the phase table)
+    worst_phase: dict = field(default_factory=dict)  # largest phase rms, any case
+    neutral_max: dict = field(default_factory=dict)  # largest neutral rms, any case
+    assumptions: dict = field(default_factory=dict)
 
     @property
     def total_cost_per_year(self) -> float:
@@ -223,7 +232,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     w = np.zeros((HOURS, n_p, n_k))
     _accumulate(w, groups, on_phase, cols_d, gid, lambda g: g.occupancy)
     rows = _group_rows(spec, cat, groups, gid, tariff)
-    w_peak_extra = [k for k, g in enumerate(groups) if g.peak_occupancy is not None]
+    hours_groups = [k for k, g in enumerate(groups) if g.coincident_share is not None]
     p_k = np.array([cat[pa][s].pq.p_w for pa, s in keys])
     q_k = np.array([cat[pa][s].pq.q1_var for pa, s in keys])
     spectra_k = {key: cat[key[0]][key[1]].i_h_vs_v_a for key in keys}
@@ -232,38 +241,56 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
 
     p_tp = w @ p_k  # (24, n_p)
     q_tp = w @ q_k
-    # the peak case: the hourly profile, or a coincident case where diversity is given
+    flat = bool(np.all(w == w[:1]))
+    hour_label = ("any hour (every hour alike)" if flat else None)
     w_cases = [w[t] for t in range(HOURS)]
-    if w_peak_extra:
-        # coincident cases: every hour again, with the groups that give a diversity (and
-        # hours per day) at their coincident occupancy instead of their daily mean
-        wc = w.copy()
-        _accumulate(wc, [groups[k] for k in w_peak_extra], on_phase[w_peak_extra], cols_d,
-                    gid[w_peak_extra], lambda g: g.peak_occupancy[None, :] - g.occupancy)
-        w_cases += list(wc)
-    spectra = np.einsum("cpk,kh->cph", np.array(w_cases), i_k)  # (cases, n_p, n_h)
+    case_labels = [hour_label or f"hour {t:02d}:00-{t + 1:02d}:00" for t in range(HOURS)]
+    if hours_groups:
+        # hours per day carry no timing: any hour may find every unit of such a group in
+        # the same state. Two coincident cases, each with every such group at once in its
+        # state of most kW, or of most current (x diversity; the rest in the least one)
+        for what, metric in (("kW", "p_w"), ("current", "i_rms_a")):
+            values = {path: [getattr(cat[path][s].pq, metric) for s in d.states]
+                      for path, d in spec.designs.items()}
+            memo: dict = {}
+
+            def shift(g, v=values, memo=memo):
+                key = (g.design_path, (g.occupancy[0] > 0).tobytes(), g.coincident_share)
+                if key not in memo:
+                    memo[key] = _coincident_occupancy(g, v[g.design_path])
+                return memo[key][None, :] - g.occupancy
+
+            wc = w.copy()
+            _accumulate(wc, [groups[k] for k in hours_groups], on_phase[hours_groups],
+                        cols_d, gid[hours_groups], shift)
+            w_cases += list(wc)
+            case_labels += [f"{case_labels[t]}, coincident: {_HEAVIEST} of most {what} at "
+                            "once" for t in range(HOURS)]
+    w_all = np.array(w_cases)
+    spectra = np.einsum("cpk,kh->cph", w_all, i_k)  # (cases, n_p, n_h)
     phasor_spectra = spectra  # the neutral is always built from these
     if spec.summation == "iec61000-3-6":
-        w_all_ = np.array(w_cases)
         mags = np.empty(spectra.shape)
         for c in range(spectra.shape[0]):
             for p in range(n_p):
-                mags[c, p] = sum_iec61000_3_6(i_k, w_all_[c, p]).i_h_a
+                mags[c, p] = sum_iec61000_3_6(i_k, w_all[c, p]).i_h_a
         # keep the phasor angles, take the law's magnitudes
         spectra = mags * np.exp(1j * np.angle(spectra))
         label = sum_iec61000_3_6(i_k[:1], [1]).method
     else:
         label = "phasor sum (identical units coherent; designs with their own angles)"
-    i_rms_cp = np.sqrt(np.sum(np.abs(spectra[..., 1:]) ** 2, axis=-1)
-                       + np.abs(spectra[..., 0]) ** 2)
+    i_rms_cp = np.sqrt(np.sum(np.abs(spectra) ** 2, axis=-1))  # (cases, n_p)
     s_cp = site.v_ln_v * i_rms_cp
-    w_all = np.array(w_cases)
     p_cases = w_all @ p_k  # (cases, n_p)
     q_cases = w_all @ q_k
     metric = s_cp.sum(axis=1) if tariff.demand_basis == "kVA" else p_cases.sum(axis=1)
     peak = int(np.argmax(metric))
     peak_label = peak % HOURS
     coincident = peak >= HOURS
+    # the neutral of every case, from the phasors in the common frame
+    neutral_ch = sum(to_common_frame(phasor_spectra[:, k], p, site.system)
+                     for k, p in enumerate(phases))
+    neutral_rms_c = rms_from_spectrum(neutral_ch)
 
     hourly = pd.DataFrame({
         "hour": np.arange(HOURS),
@@ -275,18 +302,27 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     for k, p in enumerate(phases):
         hourly[f"i_rms_{p.lower()}_a"] = i_rms_cp[:HOURS, k]
 
-    # peak-case figures per phase
+    # peak-case figures per phase (the demand peak), and each phase's largest current
     figs = []
+    warnings: list[str] = []
     for k, p in enumerate(phases):
         ih = spectra[peak, k]
         i1 = float(abs(ih[1]))
+        kf = k_factor_to_order(ih, H_MAX)
+        if kf.material:
+            warnings.append(
+                f"phase {p}: the K-factor sums orders 1-{kf.h_max}; the orders above carry "
+                f"{kf.above_energy_pct:.2g} % of the squared current and would raise K by "
+                f"{kf.above_k_pct:.0f} % (to order {kf.h_available})")
+        c_max = int(np.argmax(i_rms_cp[:, k]))
         figs.append(PhaseFigures(
             phase=p, p_w=float(p_cases[peak, k]), q1_var=float(q_cases[peak, k]),
             s_va=float(s_cp[peak, k]), i_rms_a=float(i_rms_cp[peak, k]), i1_a=i1,
             thd_i_pct=float(thd_pct(ih[: H_MAX + 1])) if i1 > 0 else 0.0,
-            k_factor=float(k_factor(ih[: H_MAX + 1])) if i_rms_cp[peak, k] > 0 else 0.0,
+            k_factor=kf.k_factor if i_rms_cp[peak, k] > 0 else 0.0,
             f_hl=float(harmonic_loss_factor(ih[: H_MAX + 1])) if i1 > 0 else 0.0,
-            i_h_a=ih[: H_MAX + 1].copy(),
+            i_h_a=ih[: H_MAX + 1].copy(), k_factor_h_max=kf.h_max,
+            i_rms_max_a=float(i_rms_cp[c_max, k]), i_rms_max_case=case_labels[c_max],
         ))
     neutral = neutral_current({f.phase: phasor_spectra[peak, k] for k, f in enumerate(figs)},
                                 site.system)
@@ -294,6 +330,11 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         {f.phase: f.p_w for f in figs}, {f.phase: f.q1_var for f in figs},
         {f.phase: site.v_ln_v for f in figs}, {f.phase: f.i_rms_a for f in figs},
         i_n_rms_a=neutral.i_rms_a, system=site.system)
+    if totals.s_e_va is not None:
+        pf, pf_basis = totals.pf_e, "P / S_e (IEEE 1459 effective apparent power)"
+    else:
+        pf, pf_basis = totals.pf_arith, ("arithmetic: P / sum of phase S (IEEE 1459 S_e "
+                                         f"not formed for a {site.system_label} supply)")
 
     # energy and cost
     p_t_kw = p_tp.sum(axis=1) / 1e3
@@ -306,36 +347,44 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
                                                      tariff.reactive_billing) for q in q_t))
     co2 = float(E.co2_kg(e_year, tariff.co2_kg_per_kwh))
 
-    # IEEE 519 at the PCC, worst phase
-    worst = max(figs, key=lambda f: f.i_rms_a)
+    # largest currents over every hour and peak case: phase conductors and neutral
+    c_w, k_w = np.unravel_index(int(np.argmax(i_rms_cp)), i_rms_cp.shape)
+    worst = {"phase": phases[k_w], "i_rms_a": float(i_rms_cp[c_w, k_w]),
+             "case": case_labels[c_w]}
+    c_n = int(np.argmax(neutral_rms_c))
+    neutral_max = {"i_rms_a": float(neutral_rms_c[c_n]), "case": case_labels[c_n]}
+
+    # IEEE 519 at the PCC, on every phase conductor, at each phase's worst case
     if site.demand_current_a:
         i_l, i_l_src = site.demand_current_a, "site demand current"
     else:
-        i_l = max(f.i1_a for f in figs)
-        i_l_src = "the fleet's own peak fundamental (no site demand_current given)"
-    tdd = float(tdd_pct(worst.i_h_a, i_l)) if i_l > 0 else 0.0
+        i_l = float(np.max(np.abs(spectra[..., 1])))
+        i_l_src = ("the fleet's own largest fundamental, any phase and case (no site "
+                   "demand_current given)")
+    h_top = min(H_MAX, n_h - 1)
+    tdd_ck = (tdd_pct(spectra[..., : h_top + 1], i_l) if i_l > 0
+              else np.zeros(i_rms_cp.shape))
+    tdd = float(np.max(tdd_ck))
     compliance: list[dict] = []
-    warnings: list[str] = []
-    if site.isc_a:
-        from dataclasses import asdict
-
-        compliance = [asdict(r) for r in L.evaluate_ieee519(np.abs(worst.i_h_a), i_l, site.isc_a)]
-        for r in compliance:
-            r["reason"] = (r["reason"] + "; " if r["reason"] else "") + f"phase {worst.phase}"
-    else:
+    if site.isc_a and i_l > 0:
+        compliance = _ieee519_every_phase(np.abs(spectra[..., : h_top + 1]), tdd_ck, phases,
+                                          case_labels, i_l, site.isc_a)
+    elif not site.isc_a:
         warnings.append("no short_circuit_current or transformer data: IEEE 519 not evaluated")
     conductors = []
-    for name, current, rating in (
-        ("phase (worst)", worst.i_rms_a, site.phase_rating_a),
-        ("neutral", neutral.i_rms_a, site.neutral_rating_a),
+    for name, current, rating, case in (
+        (f"phase {worst['phase']} (largest)", worst["i_rms_a"], site.phase_rating_a,
+         worst["case"]),
+        ("neutral", neutral_max["i_rms_a"], site.neutral_rating_a, neutral_max["case"]),
     ):
         if rating:
             cl = conductor_loading(current, rating)
             conductors.append({"conductor": name, "i_rms_a": current, "rating_a": rating,
-                               "used_pct": float(cl.used_pct), "verdict": str(cl.verdict)})
-    if site.phase_rating_a and neutral.i_rms_a > worst.i_rms_a:
-        warnings.append(f"the neutral carries more than any phase ({neutral.i_rms_a:.1f} A vs "
-                        f"{worst.i_rms_a:.1f} A): triplen harmonics add there")
+                               "used_pct": float(cl.used_pct), "verdict": str(cl.verdict),
+                               "case": case})
+    if site.phase_rating_a and neutral_max["i_rms_a"] > worst["i_rms_a"]:
+        warnings.append(f"the neutral carries more than any phase ({neutral_max['i_rms_a']:.1f}"
+                        f" A vs {worst['i_rms_a']:.1f} A): triplen harmonics add there")
     for path, d in spec.designs.items():
         nominal = spec.nominal_mains.get(path)
         if nominal is not None and (abs(nominal.voltage - site.v_ln_v) > 0.15 * site.v_ln_v
@@ -349,12 +398,79 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         neutral_i1_a=float(abs(neutral.i_h_a[1])), neutral_i_h_a=neutral.i_h_a[: H_MAX + 1],
         p_kw=totals.p_w / 1e3, q1_kvar=totals.q1_var / 1e3, s_kva=totals.s_arith_va / 1e3,
         s_e_kva=None if totals.s_e_va is None else totals.s_e_va / 1e3,
-        pf=totals.pf_arith, dpf=totals.dpf, hourly=hourly, e_kwh_per_year=e_year,
+        pf=pf, dpf=totals.dpf, hourly=hourly, e_kwh_per_year=e_year,
         energy_cost=energy_cost, demand_cost=demand_cost, reactive_cost=reactive_cost,
         co2_kg_per_year=co2, i_l_a=i_l, i_l_source=i_l_src, tdd_pct=tdd,
         compliance=compliance, conductors=conductors, groups=pd.DataFrame(rows),
-        warnings=warnings,
+        warnings=warnings, pf_basis=pf_basis, pf_arith=totals.pf_arith,
+        peak_case=case_labels[peak], worst_phase=worst, neutral_max=neutral_max,
+        assumptions=_assumptions(spec, bool(hours_groups)),
     )
+
+
+#: how the coincident cases name the state they assume
+_HEAVIEST = "every group given hours per day (no timing) in its heaviest state"
+
+
+def _coincident_occupancy(g, values) -> np.ndarray:
+    """A group given hours per day, all at once in its state of the largest value.
+
+    The share ``g.coincident_share`` (diversity, default 1) is in the state with the
+    largest ``values`` among those it spends any hours in; the rest in the smallest.
+    """
+    possible = np.flatnonzero(g.occupancy[0] > 0)
+    vals = np.asarray(values, dtype=float)[possible]
+    occ = np.zeros(len(g.states))
+    occ[possible[int(np.argmax(vals))]] += g.coincident_share
+    occ[possible[int(np.argmin(vals))]] += 1.0 - g.coincident_share
+    return occ
+
+
+def _ieee519_every_phase(mag_cph, tdd_cp, phases, case_labels, i_l, isc) -> list[dict]:
+    """IEEE 519 rows of every phase: each harmonic and TDD at that phase's worst case."""
+    from dataclasses import asdict
+
+    rows = []
+    for k, p in enumerate(phases):
+        env = np.zeros(H_MAX + 1)
+        env[: mag_cph.shape[-1]] = mag_cph[:, k].max(axis=0)
+        c_h = mag_cph[:, k].argmax(axis=0)
+        c_tdd = int(np.argmax(tdd_cp[:, k]))
+        by_h = [asdict(r) for r in L.evaluate_ieee519(env, i_l, isc)]
+        at_tdd = np.zeros(H_MAX + 1)
+        at_tdd[: mag_cph.shape[-1]] = mag_cph[c_tdd, k]
+        tdd_rows = {r.quantity: asdict(r) for r in L.evaluate_ieee519(at_tdd, i_l, isc)}
+        for r in by_h:
+            if r["quantity"] == "tdd_pct":
+                r = tdd_rows["tdd_pct"]
+                case = case_labels[c_tdd]
+            else:
+                h = int(r["quantity"][3:-4])
+                case = case_labels[int(c_h[h])] if h < len(c_h) else case_labels[0]
+            r["reason"] = (r["reason"] + "; " if r["reason"] else "") + f"phase {p}, {case}"
+            r["phase"] = p
+            r["case"] = case
+            rows.append(r)
+    return rows
+
+
+def _assumptions(spec: FleetSpec, any_hours: bool) -> dict[str, str]:
+    """What each family of figures rests on, in words."""
+    energy = ("integrates each hour of the day: 24-hour profiles as given, hours per day "
+              "as a constant share of the units in each state")
+    if any_hours:
+        peak = ("the largest of every hour, and of coincident cases in which every group "
+                "given hours per day (no timing) is at once in its heaviest state (the one "
+                "of most kW for demand, of most current for currents; x diversity where "
+                "given, the rest in the lightest)")
+    else:
+        peak = "the largest of every hour of the 24-hour profiles"
+    return {
+        "energy": energy,
+        "demand": f"demand (and the per-phase table): the case of most "
+                  f"{spec.tariff.demand_basis}: {peak}",
+        "currents": f"conductor loading, worst phase and neutral current, IEEE 519: {peak}",
+    }
 
 
 __all__ = ["evaluate_fleet", "unit_catalogue", "FleetResult"]

@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from ..economics import life_problem, rate_problem
 from ..errors import InputError, suggest
 from ..pq.polyphase import system_phases
 from ..units import parse_quantity
@@ -74,7 +75,9 @@ class Group:
     count: int
     phase: str  # a phase name or "balanced"
     occupancy: np.ndarray  # (24, n_states): fraction of the group's units in each state
-    peak_occupancy: np.ndarray | None  # (n_states,) coincident case from diversity
+    #: hours per day with no timing: the share of units that may be in their heaviest
+    #: state at once (``diversity``, default 1); None for a 24-hour profile
+    coincident_share: float | None
     states: tuple[str, ...]
     where: str  # for messages
 
@@ -227,10 +230,7 @@ def _occupancy(file, where, design: Design, hours, profile, diversity, order=Non
             total += h
         if abs(total - HOURS) > 1e-9:
             raise InputError(file, f"{where}hours", f"hours per day sum to {total:g}, not 24")
-        if diversity is not None:
-            peak = np.zeros(len(states))
-            peak[heavy] = d
-            peak[light] += 1.0 - d
+        peak = d
     else:
         if not isinstance(profile, list) or len(profile) != HOURS:
             raise InputError(file, f"{where}profile", "needs 24 state names, one per hour")
@@ -389,11 +389,11 @@ def load_fleet(path: str | Path) -> FleetSpec:
     if not isinstance(econ, dict):
         raise InputError(file, "economics", "expected a table")
     _unknown(file, "economics.", econ, _ECON_KEYS)
-    econ = {k: _number(file, f"economics.{k}", v, lo=0) for k, v in econ.items()}
-    if "service_life_years" in econ:
-        econ["service_life_years"] = _number(file, "economics.service_life_years",
-                                             econ["service_life_years"], positive=True,
-                                             integer=True)
+    econ = {k: _number(file, f"economics.{k}", v) for k, v in econ.items()}
+    for k, v in econ.items():
+        why = life_problem(v) if k == "service_life_years" else rate_problem(v)
+        if why:
+            raise InputError(file, f"economics.{k}", why)
     return FleetSpec(str(data.get("name", path.stem)), file, site, tariff, groups, summation,
                      designs, nominal, econ)
 

@@ -83,6 +83,86 @@ def k_factor(i_h_a, i_r_a=None) -> np.ndarray:
     return np.sum(mag2 * h**2, axis=-1) / ref2
 
 
+#: orders above the summed range are "material" when they would raise K by more than
+#: this [%]: K-factor ratings go in steps (K-4, K-9, K-13, K-20), so a few per cent does not
+#: move a rating (common practice, no source)
+K_MATERIAL_PCT = 5.0
+
+
+@dataclass(frozen=True)
+class KFactorSum:
+    """A K-factor with the range of orders it sums and what lies above that range.
+
+    Attributes
+    ----------
+    k_factor : float
+        ``K`` summed over orders 1..h_max, referred to the rms of those orders [-].
+    h_max : int
+        Highest order summed [-].
+    h_available : int
+        Highest order in the spectrum given [-].
+    above_energy_pct : float
+        Share of the squared rms (orders >= 1) carried by orders above ``h_max`` [%].
+    above_k_pct : float
+        How much the orders above ``h_max`` (up to ``h_available``) would raise K [%].
+    material : bool
+        ``above_k_pct`` exceeds :data:`K_MATERIAL_PCT`: the figure understates K.
+    """
+
+    k_factor: float
+    h_max: int
+    h_available: int
+    above_energy_pct: float
+    above_k_pct: float
+    material: bool
+
+
+def k_factor_to_order(i_h_a, h_max: int = 50,
+                      material_pct: float = K_MATERIAL_PCT) -> KFactorSum:
+    """K-factor summed to a stated order, and whether the spectrum above it matters.
+
+    Parameters
+    ----------
+    i_h_a : array_like of complex, shape (H + 1,)
+        Harmonic phasors [A rms], index 0 = DC, possibly beyond ``h_max``.
+    h_max : int
+        Highest order summed [-] (the limit tables stop at 50).
+    material_pct : float
+        Threshold on ``above_k_pct`` [%].
+
+    Returns
+    -------
+    KFactorSum
+
+    Notes
+    -----
+    ``K_h = sum_{1..h} I_n^2 n^2 / sum_{1..h} I_n^2`` (see :func:`k_factor`). Because each
+    order weighs ``n^2``, orders above 50 that carry well under 1 % of the energy can still
+    change K by tens of per cent (a square wave's 1/n spectrum makes K grow without bound
+    with the order summed). ``above_k_pct = 100 (K_H - K_h) / K_h`` with H the highest order
+    given, and ``above_energy_pct = 100 sum_{n>h} I_n^2 / sum_{n>=1} I_n^2``.
+
+    References
+    ----------
+    .. [1] UL 1561 / UL 1562, definition of K-factor (from memory).
+    .. [2] IEEE Std C57.110-2018 (harmonic loss factor; sums to the highest significant
+       order).
+    """
+    i_h_a = np.asarray(i_h_a, dtype=complex)
+    h_avail = i_h_a.shape[-1] - 1
+    h = min(int(h_max), h_avail)
+    mag2 = np.abs(i_h_a[1:]) ** 2
+    total = float(np.sum(mag2))
+    if total <= 0:
+        return KFactorSum(0.0, h, h_avail, 0.0, 0.0, False)
+    k_h = float(k_factor(i_h_a[: h + 1])) if np.sum(mag2[:h]) > 0 else 0.0
+    k_all = float(k_factor(i_h_a))
+    above_e = 100.0 * float(np.sum(mag2[h:])) / total
+    above_k = 100.0 * (k_all - k_h) / k_h if k_h > 0 else (0.0 if k_all == 0 else np.inf)
+    return KFactorSum(k_h, h, h_avail, above_e, float(above_k),
+                      bool(above_k > material_pct))
+
+
 def _loss_factor(i_h_a, exponent: float) -> np.ndarray:
     i_h_a = np.asarray(i_h_a, dtype=complex)
     i1_a = np.abs(i_h_a[..., 1:2])
@@ -191,5 +271,5 @@ def conductor_loading(i_rms_a, rating_a, *, high_pct: float = 80.0) -> Conductor
     return ConductorLoading(used_pct=used, verdict=verdict)
 
 
-__all__ = ["tdd_pct", "k_factor", "harmonic_loss_factor", "harmonic_loss_factor_stray",
+__all__ = ["tdd_pct", "k_factor", "K_MATERIAL_PCT", "KFactorSum", "k_factor_to_order", "harmonic_loss_factor", "harmonic_loss_factor_stray",
            "ConductorLoading", "conductor_loading"]

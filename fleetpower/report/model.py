@@ -150,13 +150,6 @@ def fmt(x: float | None, digits: int = 3, unit: str = "") -> str:
 # ----------------------------------------------------------------------------------
 # fleets
 # ----------------------------------------------------------------------------------
-def _peak_case(r) -> str:
-    flat = float(np.ptp(r.hourly["p_kw"])) <= 1e-9 * max(float(r.hourly["p_kw"].abs().max()), 1e-30)
-    when = ("every hour alike (hours per day spread evenly)" if flat
-            else f"hour {r.peak_hour:02d}:00-{r.peak_hour + 1:02d}:00")
-    return when + (", coincident (diversity) case" if r.peak_coincident else "")
-
-
 def fleet_to_dict(r) -> dict:
     """JSON-ready report of a :class:`fleetpower.fleet.FleetResult` (units in key names)."""
     site = r.spec.site
@@ -170,23 +163,31 @@ def fleet_to_dict(r) -> dict:
         "summation": r.summation_label,
         "peak_hour": r.peak_hour,
         "peak_coincident": r.peak_coincident,
-        "peak_case": _peak_case(r),
+        "peak_case": r.peak_case,
+        "assumptions": dict(r.assumptions),
         "p_kw": r.p_kw,
         "q1_kvar": r.q1_kvar,
         "q1_sense": "leading (capacitive)" if r.q1_kvar < 0 else "lagging (inductive)",
         "s_kva": r.s_kva,
         "s_e_kva": r.s_e_kva,
         "pf": r.pf,
+        "pf_basis": r.pf_basis,
+        "pf_arith": r.pf_arith,
         "dpf": r.dpf,
+        "worst_phase": dict(r.worst_phase),
         "phases": [
             {"phase": f.phase, "p_kw": f.p_w / 1e3, "q1_kvar": f.q1_var / 1e3,
              "s_kva": f.s_va / 1e3, "i_rms_a": f.i_rms_a, "i1_a": f.i1_a,
-             "thd_i_pct": f.thd_i_pct, "k_factor": f.k_factor, "f_hl": f.f_hl,
+             "thd_i_pct": f.thd_i_pct, "k_factor": f.k_factor,
+             "k_factor_h_max": f.k_factor_h_max, "f_hl": f.f_hl,
+             "i_rms_max_a": f.i_rms_max_a, "i_rms_max_case": f.i_rms_max_case,
              "harmonics_a": [abs(x) for x in f.i_h_a[1:]]}
             for f in r.phases
         ],
         "neutral": {"i_rms_a": r.neutral_i_rms_a, "i1_a": r.neutral_i1_a,
                     "i3_a": float(abs(r.neutral_i_h_a[3])),
+                    "i_rms_max_a": r.neutral_max["i_rms_a"],
+                    "i_rms_max_case": r.neutral_max["case"],
                     "harmonics_a": [abs(x) for x in r.neutral_i_h_a[1:]]},
         "tdd_pct": r.tdd_pct,
         "i_l_a": r.i_l_a,
@@ -223,8 +224,8 @@ COMPARE_ROWS = (
     ("real P at peak", "fleet_p_kw", 4, "kW"),
     ("apparent S at peak", "fleet_s_kva", 4, "kVA"),
     ("Q1 at peak", "fleet_q1_kvar", 4, "kvar"),
-    ("worst phase I", "phase_i_rms_a", 3, "A"),
-    ("neutral I", "neutral_i_rms_a", 3, "A"),
+    ("worst phase I (any hour)", "phase_i_rms_a", 3, "A"),
+    ("neutral I (any hour)", "neutral_i_rms_a", 3, "A"),
     ("energy per year", "e_kwh_per_year", 4, "kWh"),
     ("running cost/year", "running_cost_per_year", 4, "$"),
     ("CO2 per year", "co2_kg_per_year", 4, "kg"),

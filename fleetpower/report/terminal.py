@@ -226,17 +226,26 @@ def render_fleet(d: dict, console: Console) -> None:
               fmt(d["s_kva"], 4, "kVA"))
     t.add_row("I rms", *[fmt(p["i_rms_a"], 3, "A") for p in d["phases"]],
               fmt(d["neutral"]["i_rms_a"], 3, "A"), "")
+    t.add_row("I rms, largest", *[fmt(p["i_rms_max_a"], 3, "A") for p in d["phases"]],
+              fmt(d["neutral"]["i_rms_max_a"], 3, "A"), "")
     t.add_row("I fundamental", *[fmt(p["i1_a"], 3, "A") for p in d["phases"]],
               fmt(d["neutral"]["i1_a"], 3, "A"), "")
     t.add_row("THD of current", *[fmt(p["thd_i_pct"], 3, "%") for p in d["phases"]], "", "")
-    t.add_row("K-factor", *[fmt(p["k_factor"], 3) for p in d["phases"]], "", "")
+    t.add_row(f"K-factor (h <= {d['phases'][0]['k_factor_h_max']})",
+              *[fmt(p["k_factor"], 3) for p in d["phases"]], "", "")
     t.add_row("F_HL", *[fmt(p["f_hl"], 3) for p in d["phases"]], "", "")
     console.print(t)
     console.print(Text(
-        f"PF {d['pf']:.3f}   DPF {d['dpf']:.3f}   Q1 {d['q1_sense']}   "
+        f"PF {d['pf']:.3f} ({d['pf_basis']})   DPF {d['dpf']:.3f}   Q1 {d['q1_sense']}   "
         + (f"S_e {fmt(d['s_e_kva'], 4, 'kVA')} (IEEE 1459)   " if d.get("s_e_kva") else "")
         + f"TDD {d['tdd_pct']:.2f} % of I_L {fmt(d['i_l_a'], 3, 'A')}"))
+    w = d["worst_phase"]
+    console.print(Text(f"largest phase current {fmt(w['i_rms_a'], 3, 'A')} on {w['phase']} "
+                       f"({w['case']}); neutral {fmt(d['neutral']['i_rms_max_a'], 3, 'A')} "
+                       f"({d['neutral']['i_rms_max_case']})"))
     console.print(Text(f"summation: {d['summation']}", style="dim"))
+    for what, basis in d["assumptions"].items():
+        console.print(Text(f"{what}: {basis}", style="dim"))
     y = Table(box=box.SIMPLE_HEAD, title="Per year", title_justify="left", pad_edge=False)
     y.add_column("")
     y.add_column("value", justify="right")
@@ -270,9 +279,9 @@ def render_fleet(d: dict, console: Console) -> None:
         worst = max(d["compliance"], key=lambda r: r["used_pct"] or 0.0)
         console.print(Text(
             f"IEEE 519 at the PCC (I_sc {fmt(d['site']['isc_a'], 3, 'A')}, "
-            f"{d['site']['isc_source']}): {len(fails)} of {len(d['compliance'])} limits "
-            f"exceeded; highest use {worst['quantity']} {worst['used_pct']:.0f} % "
-            f"({'FAIL' if fails else 'PASS'})"))
+            f"{d['site']['isc_source']}), every phase at its worst hour: {len(fails)} of "
+            f"{len(d['compliance'])} limits exceeded; highest use {worst['quantity']} on "
+            f"{worst['phase']} {worst['used_pct']:.0f} % ({'FAIL' if fails else 'PASS'})"))
     if d["warnings"]:
         console.print(Panel("\n".join(f"- {w}" for w in d["warnings"]), title="Warnings",
                             border_style="yellow", title_align="left"))
