@@ -305,6 +305,48 @@ def cmd_spread(args) -> int:
     return EXIT_INTERRUPTED if result.interrupted else EXIT_OK
 
 
+def cmd_line(args) -> int:
+    from pathlib import Path
+
+    from .io.files import write_atomic
+    from .product_line import run_line
+    from .report.line import line_figures, line_markdown, line_tables, line_to_dict, render_line
+
+    if args.plots:
+        from .report.plots import require_matplotlib
+
+        require_matplotlib()
+    _engine_ready()
+    result = run_line(args.line, progress=_progress_printer("design on mains"))
+    report = line_to_dict(result)
+    written = []
+    if args.csv:
+        out = Path(args.csv)
+        tables = line_tables(result)
+        for name, df in tables.items():
+            write_atomic(out / name, df.to_csv(index=False))
+        written.append(f"{len(tables)} tables in {out}")
+    if args.markdown:
+        write_atomic(args.markdown, line_markdown(report))
+        written.append(args.markdown)
+    if args.plots:
+        figs = line_figures(report, args.plots)
+        written.append(f"{len(figs)} figure file(s) in {args.plots}")
+    if args.json:
+        print(json.dumps(report, indent=2))
+    else:
+        render_line(report, _console(args))
+    _wrote(written)
+    if getattr(args, "strict", False):
+        failing = [p for p in report["pairs"] if p["failed_checks"]]
+        if failing:
+            print(f"fleetpower: --strict: {len(failing)} model x market pair(s) fail a check, "
+                  f"the first {failing[0]['model']} in {failing[0]['market']} (exit 1)",
+                  file=sys.stderr)
+            return EXIT_VERDICT
+    return EXIT_OK
+
+
 def cmd_demo(args) -> int:
     from ._resources import examples_dir
 
@@ -346,6 +388,10 @@ _EPILOGS = {
   fleetpower spread examples/desk-sensor-dropper-lean.toml --samples 200 --years 10
   fleetpower spread my-design.toml --corners --json > corners.json
   fleetpower spread my-design.toml --samples 10000 --scheduler tcp://10.0.0.5:8786
+""",
+    "line": """example:
+  fleetpower line examples/product-line/lantern-works-line.toml
+  fleetpower line my-line.toml --csv out/ --markdown line.md --plots figures/
 """,
     "demo": """example:
   fleetpower demo
@@ -459,6 +505,19 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--json", action="store_true", help="print one JSON object instead")
     sp.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
     sp.set_defaults(func=cmd_spread)
+    ln = _verb(sub, "line", "a product line: every model on every market's mains and rules")
+    ln.add_argument("line", help="product-line file (TOML)")
+    ln.add_argument("--json", action="store_true", help="print one JSON object instead")
+    ln.add_argument("--csv", metavar="DIR",
+                    help="write the per-pair, per-check and installed-base tables here")
+    ln.add_argument("--markdown", metavar="FILE", help="write the report as Markdown")
+    ln.add_argument("--plots", metavar="DIR",
+                    help="write the headroom matrix and installed-base energy figures "
+                         "(needs fleetpower[plot])")
+    ln.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    ln.add_argument("--strict", action="store_true",
+                    help="exit 1 when any model x market pair fails a check, for scripts")
+    ln.set_defaults(func=cmd_line)
     dm = _verb(sub, "demo", "run the bundled scenario end to end")
     _add_outputs(dm)
     dm.set_defaults(func=cmd_demo)
