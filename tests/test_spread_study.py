@@ -201,3 +201,16 @@ def test_fleet_at_a_percentile_says_so(cli):
     assert notes and all("P95 of its own spread" in w for w in notes)
     rc, out, err = cli("fleet", example_path("harbour-office"), "--at", "P150")
     assert rc == 2 and "--at" in err and len(err.splitlines()) == 1
+
+
+def test_switch_mode_spread_solves_every_unit_and_its_eps_figures():
+    # a switch-mode supply's cold start already takes ~3 cycles: no warm start, and every
+    # unit (mains band and part defaults drawn) reaches its steady state; the EPS load
+    # points are solved per unit (no-load power and average efficiency, as in `unit`)
+    d = load_design("examples/desk-sensor-smps-230.toml")
+    plan = plan_spread(d, samples=3, seed=0, check_limits=False)
+    assert plan.warm == ()
+    r = run_spread(plan)
+    assert r.statistics.failure_fractions()["solver|no periodic steady state"] == 0.0
+    eff = r.statistics.values("eps|average_efficiency")
+    assert eff.shape == (3,) and np.all((eff > 0) & (eff < 1))  # an efficiency

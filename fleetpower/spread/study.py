@@ -131,6 +131,20 @@ def _sample_cases(design: Design) -> list[sim.Case]:
     return cases
 
 
+#: a nominal solve needing more shooting cycles than this warm-starts the samples (a
+#: dropper's cold start takes about 9; a switch-mode supply's about 3, which a warm start
+#: from another unit's solution does not improve and can lead astray)
+WARM_START_ABOVE_CYCLES = 4
+
+
+def _warm_start(design: Design, samples_per_cycle: int) -> tuple[tuple[float, ...], ...]:
+    """The nominal solution's unknowns at t = 0 per case of a unit, or () for a cold start."""
+    nominal = sim.run(_sample_cases(design), samples_per_cycle)
+    if max(r.iterations for r in nominal) <= WARM_START_ABOVE_CYCLES:
+        return ()
+    return tuple(r.x_start for r in nominal)
+
+
 def plan_spread(
     design: Design,
     *,
@@ -164,9 +178,8 @@ def plan_spread(
         n = len(table)
     else:
         n = int(samples)
-    nominal = sim.run(_sample_cases(design), samples_per_cycle)
     return SpreadPlan(design, spreads, "corners" if corners else "monte-carlo", int(seed), n,
-                      table, labels, samples_per_cycle, tuple(r.x_start for r in nominal),
+                      table, labels, samples_per_cycle, _warm_start(design, samples_per_cycle),
                       limits_file, check_limits)
 
 
@@ -227,26 +240,34 @@ class ChunkOutcome:
 
 
 def _solve_units(designs: list[Design], warm, samples_per_cycle):
-    """Every case of every unit in one batch; per unit its results (None if unsolved)."""
+    """Every case of every unit in one batch; per unit its results (None if unsolved).
+
+    Warm-started from the nominal solution when the plan has one; if any unit then finds
+    no steady state, the chunk is solved again from the topologies' own initial guesses
+    (one batch), and only if that fails too unit by unit, marking the failing ones.
+    """
     per = [_sample_cases(d) for d in designs]
     cases = [c for cs in per for c in cs]
-    initial = [w for cs in per for w in warm[: len(cs)]]
-    try:
-        flat = sim.run(cases, samples_per_cycle, cache=None, initial=initial)
-    except SolverError:
-        # one unit without a steady state must not sink the chunk: solve the units of
-        # this chunk one by one and mark the failing ones
-        out = []
+    attempts = [None]
+    if warm:
+        attempts.insert(0, [w for cs in per for w in warm[: len(cs)]])
+    for initial in attempts:
+        try:
+            flat = sim.run(cases, samples_per_cycle, cache=None, initial=initial)
+        except SolverError:
+            continue
+        out, k = [], 0
         for cs in per:
-            try:
-                out.append(sim.run(cs, samples_per_cycle, cache=None, initial=list(warm)))
-            except SolverError:
-                out.append(None)
+            out.append(flat[k:k + len(cs)])
+            k += len(cs)
         return out
-    out, k = [], 0
+    # one unit without a steady state must not sink the chunk
+    out = []
     for cs in per:
-        out.append(flat[k:k + len(cs)])
-        k += len(cs)
+        try:
+            out.append(sim.run(cs, samples_per_cycle, cache=None))
+        except SolverError:
+            out.append(None)
     return out
 
 
@@ -396,16 +417,20 @@ def evaluate_ageing_chunk(plan: SpreadPlan, years: tuple[int, ...], rate: float,
             aged = d.model_copy(update={"parts": d.parts.model_copy(
                 update={"series_capacitance": c})})
             cases.append(sim.Case(aged, state))
-    try:
-        res = sim.run(cases, plan.samples_per_cycle, cache=None,
-                      initial=[plan.warm[k]] * len(cases))
+    ok, vmin = np.zeros(len(cases), bool), np.full(len(cases), np.nan)
+    attempts = ([[plan.warm[k]] * len(cases)] if plan.warm else []) + [None]
+    for initial in attempts:
+        try:
+            res = sim.run(cases, plan.samples_per_cycle, cache=None, initial=initial)
+        except SolverError:
+            continue
         ok = np.array([r.in_regulation for r in res])
         vmin = np.array([r.v_dc_min_v for r in res])
-    except SolverError:
-        ok, vmin = np.zeros(len(cases), bool), np.full(len(cases), np.nan)
+        break
+    else:
         for j, c in enumerate(cases):
             try:
-                (r,) = sim.run([c], plan.samples_per_cycle, cache=None, initial=[plan.warm[k]])
+                (r,) = sim.run([c], plan.samples_per_cycle, cache=None)
                 ok[j], vmin[j] = r.in_regulation, r.v_dc_min_v
             except SolverError:
                 pass  # no steady state: counted as not delivering
@@ -515,7 +540,7 @@ def percentile_design(
     spreads = [s for s in study_spreads(design) if not s.key.startswith("mains.")]
     plan = SpreadPlan(design, tuple(spreads), "monte-carlo", int(seed), int(samples), None, (),
                       sim.DEFAULT_SAMPLES_PER_CYCLE,
-                      tuple(r.x_start for r in sim.run(_sample_cases(design))),
+                      _warm_start(design, sim.DEFAULT_SAMPLES_PER_CYCLE),
                       check_limits=False)
     res = run_spread(plan, executor=executor)
     if res.interrupted:
