@@ -214,3 +214,18 @@ def test_switch_mode_spread_solves_every_unit_and_its_eps_figures():
     assert r.statistics.failure_fractions()["solver|no periodic steady state"] == 0.0
     eff = r.statistics.values("eps|average_efficiency")
     assert eff.shape == (3,) and np.all((eff > 0) & (eff < 1))  # an efficiency
+
+
+def test_spread_plots_and_terminal_report(tmp_path, cli):
+    pytest.importorskip("matplotlib")
+    path = write_design(tmp_path, "desk-sensor-dropper-lean",
+                        spread={"part_class_defaults": False}, **TOLERANCED)
+    rc, out, err = cli("spread", path, "--samples", "3", "--no-limits", "--years", "1",
+                       "--plots", tmp_path / "fig", "--width", "160")
+    assert rc == 0, err
+    written = sorted(p.name for p in (tmp_path / "fig").iterdir())
+    assert written == ["spread_p_w.png", "spread_p_w.svg", "spread_v_dc_min_v.png",
+                       "spread_v_dc_min_v.svg"]
+    assert "fleetpower: wrote" in err  # one stderr line naming the files written
+    assert "3 Monte Carlo samples (seed 0)" in out and "NOT ISOLATED" in out
+    assert "The P5 unit can no longer deliver 'active' from year 0." in out
