@@ -95,22 +95,30 @@ def transformer_equivalent(design) -> dict[str, float]:
     loss at rated voltage V, so R_c = V^2 / P0; the no-load current I0 is the phasor sum
     of the in-phase core-loss current P0/V and the quadrature magnetizing current, so
     I_m = sqrt(I0^2 - (P0/V)^2) and L_m = V / (w I_m). The turns ratio is V over the
-    open-circuit secondary voltage. The regulation r (no-load to full-load drop at the
-    rated current S/V, resistive load) is the drop across the series (winding) resistance,
-    R_w I_rated = r V, so R_w = r V^2 / S (Fitzgerald, Kingsley & Umans, Electric
-    Machinery, ch. 2: approximate equivalent circuit, open- and short-circuit tests).
+    open-circuit secondary voltage. The regulation r = (U_nl - U_fl) / U_fl is taken at
+    rated VA into a resistive load: referred to the primary the full-load voltage is
+    U_fl = V / (1 + r), the load R_L = U_fl^2 / S, and the series branch R_w + jX (X the
+    leakage reactance) with R_L divides V: (1 + r)^2 = (1 + R_w/R_L)^2 + (X/R_L)^2, so
+    R_w = R_L (sqrt((1 + r)^2 - (X/R_L)^2) - 1) (Fitzgerald, Kingsley & Umans, Electric
+    Machinery, ch. 2: approximate equivalent circuit, open- and short-circuit tests,
+    voltage regulation). Everything at the nameplate rating (parts.primary_voltage and
+    primary_frequency), whatever mains the design is on.
     """
-    parts, v = design.parts, design.mains.voltage
-    omega = 2.0 * math.pi * design.mains.frequency
+    parts = design.parts
+    v, freq = parts.primary_voltage, parts.primary_frequency
+    omega = 2.0 * math.pi * freq
     i_core = parts.no_load_power / v
     if parts.no_load_current is None:
         i_mag = MAGNETIZING_TO_CORE_CURRENT_DEFAULT * i_core
     else:
         i_mag = math.sqrt(parts.no_load_current**2 - i_core**2)
-    i_rated = parts.rated_power / v
+    r = parts.regulation_pct / 100.0
+    r_load = (v / (1.0 + r)) ** 2 / parts.rated_power
+    x_leak = omega * parts.leakage_inductance
     return {
         "turns_ratio": v / parts.secondary_voltage,
-        "winding_resistance_ohm": parts.regulation_pct / 100.0 * v / i_rated,
+        "winding_resistance_ohm": r_load * (math.sqrt((1.0 + r) ** 2 - (x_leak / r_load) ** 2)
+                                            - 1.0),
         "core_resistance_ohm": v**2 / parts.no_load_power,
         "magnetizing_inductance_h": v / (omega * i_mag),
     }

@@ -189,7 +189,8 @@ def test_transformer_equivalent_circuit_from_datasheet():
     Approximate equivalent circuit referred to the primary, values from the open-circuit
     figures and the regulation (Fitzgerald, Kingsley & Umans, Electric Machinery, ch. 2).
     By hand for the example (230 V, 50 Hz, 9 V, 1.5 VA, 25 %, 0.45 W, 6 mA):
-    n = 230 / 9 = 25.556; R_w = 0.25 x 230^2 / 1.5 = 8816.7 ohm;
+    n = 230 / 9 = 25.556; R_L = (230 / 1.25)^2 / 1.5 = 22 571 ohm, R_w = 0.25 R_L
+    = 5642.7 ohm (regulation (U_nl - U_fl) / U_fl = 25 % at rated VA, resistive load);
     R_c = 230^2 / 0.45 = 117 556 ohm; I_c = 0.45 / 230 = 1.9565 mA,
     I_m = sqrt(6^2 - 1.9565^2) mA = sqrt(32.172) mA = 5.6720 mA,
     L_m = 230 / (2 pi 50 x 5.6720 mA) = 129.07 H.
@@ -199,7 +200,7 @@ def test_transformer_equivalent_circuit_from_datasheet():
     assert mine == pytest.approx(transformer_model(d), rel=1e-12)
     hand = {
         "turns_ratio": 25.556,
-        "winding_resistance_ohm": 8816.7,
+        "winding_resistance_ohm": 5642.7,
         "core_resistance_ohm": 117556.0,
         "magnetizing_inductance_h": 129.07,
     }

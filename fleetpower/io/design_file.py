@@ -210,6 +210,7 @@ def design_from_dict(data: dict, file: str = "<input>") -> Design:
             "rated_state",
             f"unknown state {design.rated_state!r}{suggest(design.rated_state, design.states)}",
         )
+    design = design.topology_impl.complete(design)
     design.topology_impl.check(design)
     return design
 

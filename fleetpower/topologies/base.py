@@ -110,6 +110,11 @@ class Topology:
     #: labels of loss probes only this topology writes
     extra_loss_labels: ClassVar[dict[str, str]] = {}
 
+    def complete(self, design: Design) -> Design:
+        """The design with defaults that depend on other sections filled in (at load,
+        while ``design.mains`` is still the file's own)."""
+        return design
+
     def check(self, design: Design) -> None:
         """Cross-field checks of a validated design; raise ``InputError`` naming the key."""
 
