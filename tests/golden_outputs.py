@@ -102,6 +102,8 @@ def write() -> None:
 
 
 if __name__ == "__main__":
+    # run as a script, record THIS checkout's package, not whichever one is installed
+    sys.path.insert(0, str(REPO))
     if sys.argv[1:] != ["--write"]:
         sys.exit("usage: python tests/golden_outputs.py --write")
     write()
