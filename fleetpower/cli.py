@@ -7,6 +7,7 @@ import json
 import os
 import sys
 import time
+from pathlib import Path
 
 from rich.console import Console
 
@@ -108,11 +109,36 @@ def cmd_unit(args) -> int:
     with _status(f"solving {design.name} to periodic steady state"):
         analysis = analyse_unit(design, states, limits_file=args.limits)
     report = unit_to_dict(analysis)
+    written = _write_waveforms(args.waveform_csv, analysis) if args.waveform_csv else []
     if args.json:
         print(json.dumps(report, indent=2))
     else:
         render_unit(report, _console(args))
+    _wrote(written)
     return _verdict_exit(args, report)
+
+
+def _write_waveforms(target: str, analysis) -> list[Path]:
+    """Each analysed state's cycle, repeated over the IEC window, as a capture file
+    (``FILE``, or ``FILE-<state>`` for several states)."""
+    from .io.capture_file import write_capture
+    from .pq.capture import repeat_cycle
+
+    def how(r):
+        return "simulated" if r.circuit_known else "rebuilt from the measured spectrum"
+
+    base = Path(target)
+    paths = []
+    for r in analysis.states:
+        path = (base if len(analysis.states) == 1
+                else base.with_name(f"{base.stem}-{r.state}{base.suffix}"))
+        t, v, i = repeat_cycle(r.t_s, r.v_v, r.i_a)
+        write_capture(path, t, v, i, [
+            f"{analysis.design.name}, state '{r.state}': the steady-state cycle repeated "
+            f"over the IEC 61000-4-7 window ({how(r)} by fleetpower)",
+            "voltage line-to-neutral at the plug; current into the supply positive"])
+        paths.append(path)
+    return paths
 
 
 def cmd_limits(args) -> int:
@@ -449,6 +475,10 @@ def build_parser() -> argparse.ArgumentParser:
                    help="an extra limit-set file (CSV) to check against")
     u.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
     u.add_argument("--strict", action="store_true", help=_STRICT_HELP)
+    u.add_argument("--waveform-csv", metavar="FILE",
+                   help="write each state's waveform (one cycle repeated over the IEC "
+                        "61000-4-7 window) as a capture file a measured design can read; "
+                        "several states go to FILE-<state>")
     u.set_defaults(func=cmd_unit)
     fl = _verb(sub, "fleet", "what a whole deployment draws and costs")
     fl.add_argument("fleet", help="fleet file (TOML)")

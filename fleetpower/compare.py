@@ -113,6 +113,8 @@ def _driver(unit: UnitAnalysis) -> str:
     """The largest loss of the standby (lightest) state, as a sentence."""
     light = lightest_state(unit.design)
     res = next((r for r in unit.states if r.state == light), unit.states[0])
+    if not res.circuit_known:
+        return f"{res.pq.p_w:.2f} W per unit at {res.state}; where it goes is {res.unknown_note}"
     name, watts = max(res.losses_w.items(), key=lambda kv: kv[1])
     return (f"{name} at {res.state}: {watts:.2f} W of {res.pq.p_w:.2f} W per unit")
 
@@ -231,7 +233,8 @@ def recommend(candidates: list[Candidate], years: int, currency: str) -> str:
     cheaper = [c for c in others if c.lifetime_cost < best.lifetime_cost]
     if cheaper and clean:
         why += f" (cheaper {cheaper[0].label} is excluded by its failed checks)"
-    iso = "isolated" if best.design.is_isolated else "NOT isolated: enclose it fully"
+    iso = ("isolated" if best.design.is_isolated else "NOT isolated: enclose it fully"
+           if best.design.is_isolated is False else "isolation not known: check it")
     return f"Choose {best.label} ({best.design.name}): {why}; {iso}."
 
 
@@ -242,7 +245,7 @@ def comparison_table(cmp: Comparison) -> pd.DataFrame:
         d = c.design
         by = {r.state: r for r in c.unit.states}
         light = by[lightest_state(d)]
-        heavy = by[max(d.states, key=d.load_current_a)]
+        heavy = by[max(d.states, key=d.load_rank)]
         rated = by[rated_state(d)]
         rows.append({
             "design": c.label,

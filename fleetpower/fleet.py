@@ -115,6 +115,9 @@ class FleetResult:
     worst_phase: dict = field(default_factory=dict)  # largest phase rms, any case
     neutral_max: dict = field(default_factory=dict)  # largest neutral rms, any case
     assumptions: dict = field(default_factory=dict)
+    #: design-states whose figures are not simulated (measured gadgets): design, state,
+    #: basis (file, window, voltage-scaling model used on this site)
+    measured: list[dict] = field(default_factory=list)
 
     @property
     def total_cost_per_year(self) -> float:
@@ -385,6 +388,14 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     if site.phase_rating_a and neutral_max["i_rms_a"] > worst["i_rms_a"]:
         warnings.append(f"the neutral carries more than any phase ({neutral_max['i_rms_a']:.1f}"
                         f" A vs {worst['i_rms_a']:.1f} A): triplen harmonics add there")
+    measured = []
+    for pa, s in keys:
+        res = cat[pa][s]  # a StateResult (or any object with its pq figures, in tests)
+        if getattr(res, "basis", None) is not None:
+            measured.append({"design": spec.designs[pa].name, "state": s,
+                             "voltage_scaling": res.voltage_scaling, "basis": res.basis})
+        warnings += [f"design '{spec.designs[pa].name}' state '{s}': {n}"
+                     for n in getattr(res, "notes", ())]
     for path, d in spec.designs.items():
         nominal = spec.nominal_mains.get(path)
         if nominal is not None and (abs(nominal.voltage - site.v_ln_v) > 0.15 * site.v_ln_v
@@ -404,7 +415,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         compliance=compliance, conductors=conductors, groups=pd.DataFrame(rows),
         warnings=warnings, pf_basis=pf_basis, pf_arith=totals.pf_arith,
         peak_case=case_labels[peak], worst_phase=worst, neutral_max=neutral_max,
-        assumptions=_assumptions(spec, bool(hours_groups)),
+        assumptions=_assumptions(spec, bool(hours_groups)), measured=measured,
     )
 
 

@@ -86,30 +86,45 @@ class StateResult:
 
     state: str
     mains_factor: float
-    load_a: float
+    load_a: float | None  # output current of the case [A] (None: not known, measured)
     t_s: np.ndarray
     v_v: np.ndarray
     i_a: np.ndarray
     pq: PowerQuality
-    losses_w: dict[str, float]
-    balance: Balance
-    v_dc_v: float
-    v_dc_min_v: float
-    ripple_v_pp: float
-    i_dc_a: float  # mean current the load actually receives [A] (less than asked when the
-    # regulator drops out)
-    v_out_min_v: float
-    i_zener_reverse_a: float
-    p_zener_w: float
-    p_series_resistor_w: float
-    p_bleeder_w: float
-    v_cap_peak_v: float
-    v_cap_rms_v: float
-    in_regulation: bool
-    iterations: int
+    # circuit-only figures: None for a topology the engine does not solve (a measured
+    # gadget), whose reports say "not known" (``unknown_note``) instead
+    losses_w: dict[str, float] | None = None
+    balance: Balance | None = None
+    v_dc_v: float | None = None
+    v_dc_min_v: float | None = None
+    ripple_v_pp: float | None = None
+    i_dc_a: float | None = None  # mean current the load actually receives [A] (less than
+    # asked when the regulator drops out)
+    v_out_min_v: float | None = None
+    i_zener_reverse_a: float | None = None
+    p_zener_w: float | None = None
+    p_series_resistor_w: float | None = None
+    p_bleeder_w: float | None = None
+    v_cap_peak_v: float | None = None
+    v_cap_rms_v: float | None = None
+    in_regulation: bool | None = None
+    iterations: int = 0
     #: engine unknowns at the start of the settled cycle (v_c1 [V], v_o [V], v_a [V],
     #: i_s [A]): a warm start for variants of this case (spread samples)
     x_start: tuple[float, ...] = ()
+    #: where the figures come from when not simulated (file, window, scaling model)
+    basis: str | None = None
+    #: quality flags of the source data (shown as warnings)
+    notes: tuple[str, ...] = ()
+    #: voltage-scaling model applied to reach these mains (measured gadgets), or None
+    voltage_scaling: str | None = None
+    #: how reports show the circuit-only figures above when they are None
+    unknown_note: str | None = None
+
+    @property
+    def circuit_known(self) -> bool:
+        """Whether losses, output and the energy balance are known (simulated)."""
+        return self.balance is not None
 
     @property
     def i_h_vs_v_a(self) -> np.ndarray:
@@ -188,6 +203,17 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
         )
     return results
 
+
+
+def _direct_result(case: Case, samples_per_cycle: int) -> StateResult:
+    """A case of a topology the engine does not solve, from the topology's own figures."""
+    impl = case.design.topology_impl
+    d = impl.direct_state(case.design, case.state, case.mains_factor, samples_per_cycle)
+    return StateResult(
+        state=case.state, mains_factor=case.mains_factor,
+        load_a=case.load_a,
+        t_s=d.t_s, v_v=d.v_v, i_a=d.i_a, pq=d.pq, basis=d.basis, notes=d.notes,
+        voltage_scaling=d.voltage_scaling, unknown_note=impl.unknown_note)
 
 
 class ResultCache:
@@ -274,6 +300,15 @@ def run(
             out[k] = hit
         else:
             todo.setdefault(key, []).append(k)
+    # the one dispatch on the kind of topology: direct ones give their figures themselves
+    for key in [k for k, idx in todo.items()
+                if not cases[idx[0]].design.topology_impl.simulated]:
+        idx = todo.pop(key)
+        res = _direct_result(cases[idx[0]], samples_per_cycle)
+        if cache is not None:
+            cache.put(key, res)
+        for k in idx:
+            out[k] = res
     if todo:
         first = [idx[0] for idx in todo.values()]
         rows, x0s = zip(*(engine_row(cases[k]) for k in first), strict=True)

@@ -41,6 +41,12 @@ NON_ISOLATION_CAUTION = (
     "local electrical codes and licensed practice; this tool does not replace them."
 )
 
+ISOLATION_UNKNOWN_CAUTION = (
+    "ISOLATION NOT KNOWN: the design file does not say whether this supply's output is "
+    "isolated from the mains (isolated = true/false). Until its documentation says so, "
+    "treat its output and anything wired to it as possibly at mains potential."
+)
+
 
 # ----------------------------------------------------------------------------------
 # deliverable current and the hand estimate
@@ -167,18 +173,19 @@ def analyse_unit(design: Design, states: list[str] | None = None,
         hand = hand_estimate(design, max_a) if max_a is not None else None
     else:
         for r in nominal:
-            if not r.in_regulation:
+            if r.in_regulation is False:
                 warnings.append(
                     f"state '{r.state}': the bulk capacitor falls to {r.v_dc_min_v:.1f} V, "
                     f"below the converter's lockout ({design.output.undervoltage_lockout:.1f} V)"
                 )
     for r in nominal:
+        warnings += [f"state '{r.state}': {note}" for note in r.notes]
         if abs(r.pq.i_dc_a) > 1e-3 * max(r.pq.i_rms_a, 1e-12) and abs(r.pq.i_dc_a) > 1e-4:
             why = design.topology_impl.dc_bias_reason
             warnings.append(
                 f"state '{r.state}': draws {r.pq.i_dc_a * 1e3:.2f} mA DC from the mains ({why})"
             )
-        if abs(r.balance.residual_pct) > 0.5:
+        if r.balance is not None and abs(r.balance.residual_pct) > 0.5:
             warnings.append(
                 f"state '{r.state}': energy balance closes only to {r.balance.residual_pct:.2f} %"
             )
@@ -191,7 +198,8 @@ def analyse_unit(design: Design, states: list[str] | None = None,
         states=nominal,
         stresses=st,
         warnings=warnings,
-        caution=None if design.is_isolated else NON_ISOLATION_CAUTION,
+        caution=(None if design.is_isolated else NON_ISOLATION_CAUTION
+                 if design.is_isolated is False else ISOLATION_UNKNOWN_CAUTION),
         max_deliverable_a=max_a,
         hand=hand,
         eps=eps_figures(design) if isinstance(design.output, ConverterOutput) else None,

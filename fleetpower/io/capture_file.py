@@ -23,7 +23,8 @@ Harmonic table
     order is taken in phase (0 deg): see :func:`read_harmonic_table`.
 
 Every defect is an :class:`~fleetpower.errors.InputError` naming the file and what is wrong.
-The analysis is :mod:`fleetpower.pq.capture`. May import ``units`` and ``errors`` only.
+The analysis is :mod:`fleetpower.pq.capture`. May import ``units``, ``errors`` and
+``io.files`` (:func:`write_capture` writes a simulated waveform in the capture format).
 """
 
 from __future__ import annotations
@@ -38,6 +39,7 @@ import pint
 
 from ..errors import InputError
 from ..units import registry
+from .files import write_atomic
 
 #: highest harmonic order a table may list (fleetpower.pq.spectrum.H_MAX)
 H_TABLE_MAX = 50
@@ -278,3 +280,24 @@ def read_harmonic_table(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
     return h, mag * np.exp(1j * phase)
 
 
+
+
+def capture_csv(t_s: np.ndarray, v_v: np.ndarray, i_a: np.ndarray,
+                comments: list[str] = ()) -> str:
+    """A capture file's text: ``time [ms],voltage [V],current [mA]`` (format above).
+
+    Values are printed with 12 significant digits, so a capture read back loses nothing
+    a power analysis could see.
+    """
+    lines = [f"# {c}" for c in comments]
+    lines.append("time [ms],voltage [V],current [mA]")
+    lines += [f"{t:.12g},{v:.12g},{i:.12g}"
+              for t, v, i in zip(np.asarray(t_s) * 1e3, v_v, np.asarray(i_a) * 1e3,
+                                 strict=True)]
+    return "\n".join(lines) + "\n"
+
+
+def write_capture(path: str | Path, t_s: np.ndarray, v_v: np.ndarray, i_a: np.ndarray,
+                  comments: list[str] = ()) -> None:
+    """Write a capture file atomically (:func:`fleetpower.io.files.write_atomic`)."""
+    write_atomic(path, capture_csv(t_s, v_v, i_a, comments))

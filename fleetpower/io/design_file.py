@@ -22,8 +22,13 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError
 from ..errors import InputError, suggest
 from ..spread.tolerance import SpreadSpec, read_spread_table, split_tolerances
 from ..topologies import REGISTRY, TOPOLOGIES, Topology
-from ..units import parse_quantity
-from .schema import ConverterOutput, LinearOutput, Mains, RatedInput  # noqa: F401 (re-exported)
+from .schema import (  # noqa: F401 (re-exported)
+    ConverterOutput,
+    LinearOutput,
+    Mains,
+    RatedInput,
+    parse_load,
+)
 from .toml import read_toml
 
 #: every topology's parts and output models, derived from the registry
@@ -31,13 +36,21 @@ _PARTS = {name: t.parts_model for name, t in REGISTRY.items()}
 _OUTPUT = {name: t.output_model for name, t in REGISTRY.items()}
 _PartsUnion = Union[tuple(dict.fromkeys(_PARTS.values()))]  # noqa: UP007
 _OutputUnion = Union[tuple(dict.fromkeys(_OUTPUT.values()))]  # noqa: UP007
+#: a state is a load ("current" or "power", value) or a topology's own state model
+_StateUnion = Union[(tuple[str, float],  # noqa: UP007
+                     *dict.fromkeys(t.state_model for t in REGISTRY.values()
+                                    if t.state_model is not None))]
+#: the tables a design file may hold, over every topology
+_PARTS_KEYS = tuple(dict.fromkeys(t.parts_key for t in REGISTRY.values()))
+_TABLES = ("mains", "output", "states", "spread", *_PARTS_KEYS)
 
 
 class Design(BaseModel):
     """A validated design file.
 
     Attributes are SI values (V, A, W, F, ohm, H, Hz). ``states`` maps each operating
-    state to its load on the output: ``("current", A)`` or ``("power", W)``.
+    state to its load on the output: ``("current", A)`` or ``("power", W)``, or to the
+    topology's own state model (a measured gadget's file, :mod:`.topologies.measured`).
     """
 
     model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True)
@@ -53,7 +66,7 @@ class Design(BaseModel):
     mains: Mains
     parts: _PartsUnion
     output: _OutputUnion
-    states: dict[str, tuple[str, float]]
+    states: dict[str, _StateUnion]
     #: declared tolerances, the mains band and the ageing settings (``[spread]``); the
     #: values above are the nominals
     spread: SpreadSpec = SpreadSpec()
@@ -76,10 +89,14 @@ class Design(BaseModel):
         return isinstance(self.output, LinearOutput)
 
     @property
-    def is_isolated(self) -> bool:
+    def is_isolated(self) -> bool | None:
         """Whether the output is isolated from the mains (the topology decides; a
-        switch-mode supply is unless the file says not)."""
+        switch-mode supply is unless the file says not; None: not known)."""
         return self.topology_impl.is_isolated(self)
+
+    def load_rank(self, state: str) -> float:
+        """A state's weight for picking the heaviest (rated) and lightest (standby) state."""
+        return self.topology_impl.load_rank(self, state)
 
     def on_mains(self, voltage_v: float, frequency_hz: float) -> Design:
         """The same design plugged into other mains (a site's voltage and frequency)."""
@@ -140,28 +157,15 @@ def _validate(model: type[BaseModel], data: Any, file: str, prefix: tuple):
         raise _fail(file, exc, prefix, model) from None
 
 
-def parse_load(text: Any, *, file: str, key: str) -> tuple[str, float]:
-    """A state's load: a current (``"20 mA"``) or a power (``"0.5 W"``), zero allowed."""
-    for kind, dim in (("current", "current"), ("power", "power")):
-        try:
-            value = parse_quantity(text, dim, file=file, key=key)
-        except InputError:
-            continue
-        if value < 0:
-            raise InputError(file, key, "a load cannot be negative")
-        return kind, value
-    raise InputError(file, key, f"{text!r} is neither a current (\"20 mA\") nor a power (\"0.5 W\")")
-
-
 def design_from_dict(data: dict, file: str = "<input>") -> Design:
     """Validate a parsed design table; raise :class:`InputError` naming file and key."""
     if not isinstance(data, dict):
         raise InputError(file, "", "expected a TOML table")
-    known = set(Design.model_fields) - {"source"}
+    known = (set(Design.model_fields) - {"source", "parts"}) | set(_TABLES)
     for key in data:
         if key not in known:
             raise InputError(file, key, f"unknown key{suggest(key, known)}")
-    for key in ("name", "topology", "mains", "parts", "output", "states"):
+    for key in ("name", "topology"):
         if key not in data:
             raise InputError(file, key, "missing key")
     topology = data["topology"]
@@ -172,9 +176,30 @@ def design_from_dict(data: dict, file: str = "<input>") -> Design:
             f"unknown topology {topology!r}{suggest(str(topology), TOPOLOGIES)}; "
             f"choose one of {', '.join(TOPOLOGIES)}",
         )
+    impl = REGISTRY[topology]
+    pkey = impl.parts_key
+    for key in impl.required_tables:
+        if key not in data:
+            raise InputError(file, key, "missing key")
+    for key in _PARTS_KEYS:
+        if key in data and key != pkey:
+            raise InputError(file, key, f"not a key of a {topology} design (its table is "
+                             f"[{pkey}])")
+    data = dict(data)
+    data.setdefault(pkey, {})
+    data.setdefault("output", {})
+    states_raw = data.get("states")
+    if not isinstance(states_raw, dict) or not states_raw:
+        raise InputError(file, "states", "needs at least one state, e.g. active = \"20 mA\"")
+    states = {
+        name: impl.read_state(value, file=file, key=f"states.{name}")
+        for name, value in states_raw.items()
+    }
+    if "mains" not in data:
+        data["mains"] = impl.default_mains(states, file)
     declared = []
     tables = {}
-    for name, model in (("mains", Mains), ("parts", _PARTS[topology])):
+    for name, model in (("mains", Mains), (pkey, _PARTS[topology])):
         if isinstance(data[name], dict):
             tables[name], found = split_tolerances(data[name], name, file=file,
                                                    known=set(model.model_fields))
@@ -182,19 +207,9 @@ def design_from_dict(data: dict, file: str = "<input>") -> Design:
         else:
             tables[name] = data[name]
     mains = _validate(Mains, tables["mains"], file, ("mains",))
-    parts = _validate(_PARTS[topology], tables["parts"], file, ("parts",))
+    parts = _validate(_PARTS[topology], tables[pkey], file, (pkey,))
     output = _validate(_OUTPUT[topology], data["output"], file, ("output",))
-    states_raw = data["states"]
-    if not isinstance(states_raw, dict) or not states_raw:
-        raise InputError(file, "states", "needs at least one state, e.g. active = \"20 mA\"")
-    states = {
-        name: parse_load(value, file=file, key=f"states.{name}")
-        for name, value in states_raw.items()
-    }
-    rest = {
-        k: v for k, v in data.items()
-        if k not in ("mains", "parts", "output", "states", "spread")
-    }
+    rest = {k: v for k, v in data.items() if k not in _TABLES}
     spread = read_spread_table(data.get("spread"), declared, mains.voltage, mains.frequency,
                                file=file)
     try:

@@ -201,8 +201,8 @@ def _tariff(file: str, d: Any) -> Tariff:
 def _state_order(design: Design) -> tuple[tuple[str, ...], int, int]:
     """(states in file order, index of the lightest load, index of the heaviest)."""
     states = tuple(design.states)
-    light = states.index(min(states, key=design.load_current_a))
-    heavy = states.index(max(states, key=design.load_current_a))
+    light = states.index(min(states, key=design.load_rank))
+    heavy = states.index(max(states, key=design.load_rank))
     return states, light, heavy
 
 

@@ -100,3 +100,16 @@ class RatedInput(Strict):
             if pair is not None and pair[0] > pair[1]:
                 raise ValueError(f"{name}: the lower end comes first, e.g. [\"90 V\", \"264 V\"]")
         return self
+
+
+def parse_load(text: Any, *, file: str, key: str) -> tuple[str, float]:
+    """A state's load: a current (``"20 mA"``) or a power (``"0.5 W"``), zero allowed."""
+    for kind, dim in (("current", "current"), ("power", "power")):
+        try:
+            value = parse_quantity(text, dim, file=file, key=key)
+        except InputError:
+            continue
+        if value < 0:
+            raise InputError(file, key, "a load cannot be negative")
+        return kind, value
+    raise InputError(file, key, f"{text!r} is neither a current (\"20 mA\") nor a power (\"0.5 W\")")

@@ -35,11 +35,11 @@ def rated_state(design: Design) -> str:
     """State at which emissions are assessed: ``rated_state`` or the heaviest load."""
     if design.rated_state:
         return design.rated_state
-    return max(design.states, key=design.load_current_a)
+    return max(design.states, key=design.load_rank)
 
 
 def lightest_state(design: Design) -> str:
-    return min(design.states, key=design.load_current_a)
+    return min(design.states, key=design.load_rank)
 
 
 def eps_figures(design: Design) -> tuple[float, float, list[float]]:

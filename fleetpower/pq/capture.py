@@ -116,6 +116,10 @@ class MeasuredSpectrum:
         unexplained content).
     clipped : tuple of str
         Channels ("voltage", "current") with flat tops at the instrument's range.
+    v_hi_v, i_hi_a : ndarray of complex
+        Phasors of the fitted orders above 50 (index 0 = order 51), same reference; their
+        power is already in the ``rest`` figures. Kept so that a waveform rebuilt from the
+        spectrum (:func:`cycle`) holds a narrow pulse's high orders as the capture did.
     """
 
     source: str
@@ -134,6 +138,8 @@ class MeasuredSpectrum:
     thd_v_pct: float
     warnings: tuple[str, ...]
     clipped: tuple[str, ...] = ()
+    v_hi_v: np.ndarray = dataclasses.field(default_factory=lambda: np.zeros(0, complex))
+    i_hi_a: np.ndarray = dataclasses.field(default_factory=lambda: np.zeros(0, complex))
 
     def power_quality(self) -> PowerQuality:
         """IEEE 1459 quantities of the measured gadget (see :func:`spectrum_power_quality`)."""
@@ -148,6 +154,8 @@ class MeasuredSpectrum:
             self,
             v_h_v=v_h,
             i_h_a=i_h,
+            v_hi_v=self.v_hi_v * k_v,
+            i_hi_a=self.i_hi_a * k_i,
             v_rest_rms_v=self.v_rest_rms_v * k_v,
             i_rest_rms_a=self.i_rest_rms_a * k_i,
             p_rest_w=self.p_rest_w * k_v * k_i,
@@ -459,6 +467,7 @@ def analyse_capture(t_s: np.ndarray, v_v: np.ndarray, i_a: np.ndarray,
     ref = np.angle(vh[1])
     rot = np.exp(-1j * ref * np.arange(H_MAX + 1))
     vh, ih = vh * rot, ih * rot
+    hi = above * np.exp(-1j * ref * np.arange(H_MAX + 1, H_MAX + 1 + above.shape[0]))[:, None]
 
     warnings: list[str] = []
     per_cycle = fs / f1
@@ -515,6 +524,8 @@ def analyse_capture(t_s: np.ndarray, v_v: np.ndarray, i_a: np.ndarray,
         thd_v_pct=thd_v,
         warnings=tuple(warnings),
         clipped=clipped,
+        v_hi_v=hi[:, 0].copy(),
+        i_hi_a=hi[:, 1].copy(),
     )
 
 
@@ -547,12 +558,23 @@ def spectrum_from_table(h: np.ndarray, i_h_a: np.ndarray, v_rms_v: float, f1_hz:
     cycle = _synthesise(ih, f1_hz)
     return MeasuredSpectrum(
         source=source, f1_hz=float(f1_hz), window_cycles=0, window_s=0.0,
-        method=f"harmonic table, orders {', '.join(str(int(x)) for x in sorted(h))} "
+        method=f"harmonic table, orders {_orders_text(h)} "
                f"on a sinusoidal {v_rms_v:g} V {f1_hz:g} Hz supply",
         v_h_v=vh, i_h_a=ih, v_rest_rms_v=0.0, i_rest_rms_a=0.0, p_rest_w=0.0,
         i_peak_a=float(np.max(np.abs(cycle))), sample_rate_hz=0.0,
         h_resolved=int(np.max(h)), thd_v_pct=0.0, warnings=(),
     )
+
+
+def _orders_text(h: np.ndarray) -> str:
+    """Listed orders as runs: "1..40" or "1, 3, 5..9"."""
+    hs = sorted(int(x) for x in h)
+    runs, start = [], hs[0]
+    for a, b in zip(hs, hs[1:] + [None], strict=True):
+        if b != a + 1:
+            runs.append(str(start) if start == a else f"{start}..{a}")
+            start = b
+    return ", ".join(runs)
 
 
 def _synthesise(x_h: np.ndarray, f1_hz: float, n: int = SYNTH_SAMPLES) -> np.ndarray:
@@ -562,6 +584,41 @@ def _synthesise(x_h: np.ndarray, f1_hz: float, n: int = SYNTH_SAMPLES) -> np.nda
     spec[:m] = x_h[:m] * n / np.sqrt(2.0)
     spec[0] = x_h[0].real * n
     return np.fft.irfft(spec, n)
+
+
+def cycle(spec: MeasuredSpectrum, n: int = SYNTH_SAMPLES
+          ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """One coherent cycle (time [s], voltage [V], current [A]) rebuilt from a spectrum.
+
+    Orders 0..50 and the fitted orders above 50 (as far as n samples resolve them); the
+    unexplained residual (interharmonics, noise) is not a periodic waveform and is left
+    out.
+    """
+    v = _synthesise(np.concatenate([spec.v_h_v, spec.v_hi_v]), spec.f1_hz, n)
+    i = _synthesise(np.concatenate([spec.i_h_a, spec.i_hi_a]), spec.f1_hz, n)
+    return np.arange(n) / (n * spec.f1_hz), v, i
+
+
+def repeat_cycle(t_s: np.ndarray, v_v: np.ndarray, i_a: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """A steady-state cycle repeated over the IEC 61000-4-7 window (10 cycles at 50 Hz,
+    12 at 60 Hz), as a capture of it would record it.
+
+    Parameters
+    ----------
+    t_s, v_v, i_a : ndarray, shape (n,)
+        One cycle sampled uniformly, ``t_s[k] = k T / n`` [s], voltage [V], current [A].
+
+    Returns
+    -------
+    t_s, v_v, i_a : ndarray, shape (N n,)
+        N whole cycles, N from :func:`window_cycles` at f = 1/T.
+    """
+    n = t_s.size
+    dt = float(t_s[1] - t_s[0])
+    f_hz = 1.0 / (n * dt)
+    cycles, _ = window_cycles(f_hz, 1e6)
+    return np.arange(n * cycles) * dt, np.tile(v_v, cycles), np.tile(i_a, cycles)
 
 
 def spectrum_power_quality(spec: MeasuredSpectrum) -> PowerQuality:

@@ -45,7 +45,7 @@ def state_to_dict(r: StateResult) -> dict:
     """JSON-ready figures of one state (keys carry their units)."""
     q = r.pq
     table = harmonic_table(q.i_h_a)
-    return {
+    out = {
         "state": r.state,
         "v_rms_v": q.v_rms_v,
         "i_rms_a": q.i_rms_a,
@@ -67,6 +67,14 @@ def state_to_dict(r: StateResult) -> dict:
              "pct_of_fundamental": row.pct_of_fundamental, "phase_deg": row.phase_deg}
             for row in table.itertuples()
         ],
+    }
+    if not r.circuit_known:
+        # a measured gadget: what only a circuit tells is not known (never 0 or NaN)
+        out.update({"losses_w": None, "delivered_w": None, "balance": None, "output": None,
+                    "circuit_figures": r.unknown_note, "basis": r.basis,
+                    "voltage_scaling": r.voltage_scaling, "notes": list(r.notes)})
+        return out
+    out.update({
         "losses_w": dict(r.losses_w),
         "delivered_w": r.balance.delivered_w,
         "balance": {
@@ -86,7 +94,8 @@ def state_to_dict(r: StateResult) -> dict:
             "in_regulation": r.in_regulation,
         },
         "shooting_iterations": r.iterations,
-    }
+    })
+    return out
 
 
 def unit_to_dict(u: UnitAnalysis) -> dict:
@@ -113,6 +122,9 @@ def unit_to_dict(u: UnitAnalysis) -> dict:
         ],
         "warnings": list(u.warnings),
     }
+    unknown = next((r.unknown_note for r in u.states if not r.circuit_known), None)
+    if unknown is not None:
+        out["circuit_figures"] = unknown
     if u.max_deliverable_a is not None:
         out["max_deliverable_i_dc_a"] = u.max_deliverable_a
     if u.hand is not None:
@@ -204,6 +216,8 @@ def fleet_to_dict(r) -> dict:
         "hourly": r.hourly.to_dict("records"),
         "warnings": list(r.warnings),
     }
+    if r.measured:
+        out["measured"] = list(r.measured)
     return _clean(out)
 
 
@@ -245,8 +259,7 @@ def compare_to_dict(cmp) -> dict:
         d = dict(row)
         d["letter"] = chr(ord("A") + len(designs))
         d["file"] = str(c.path)
-        d["safety"] = ("isolated" if c.design.is_isolated else
-                       "NOT isolated: output at mains potential")
+        d["safety"] = safety_label(c.design.is_isolated)
         d["failures"] = c.failures
         d["unit_compliance"] = c.unit_compliance
         d["fleet_compliance"] = c.fleet.compliance
@@ -269,11 +282,26 @@ def compare_to_dict(cmp) -> dict:
         "paybacks": cmp.paybacks,
         "recommendation": cmp.recommendation,
         **({"basis": cmp.basis} if getattr(cmp, "basis", None) else {}),
-        "caution": (None if all(c.design.is_isolated for c in cmp.candidates)
-                    else "Non-isolated candidates put everything on their output at mains "
-                         "potential; enclose them fully and follow local codes and licensed "
-                         "practice."),
+        "caution": _compare_caution([c.design.is_isolated for c in cmp.candidates]),
     })
+
+
+def _compare_caution(isolated: list[bool | None]) -> str | None:
+    if any(x is False for x in isolated):
+        return ("Non-isolated candidates put everything on their output at mains "
+                "potential; enclose them fully and follow local codes and licensed "
+                "practice.")
+    if any(x is None for x in isolated):
+        return ("Some candidates do not declare whether their output is isolated; treat "
+                "it as possibly at mains potential until their documentation says so.")
+    return None
+
+
+def safety_label(isolated: bool | None) -> str:
+    """How a design's isolation is stated in reports (None: the file does not say)."""
+    if isolated is None:
+        return "isolation not known (not declared)"
+    return "isolated" if isolated else "NOT isolated: output at mains potential"
 
 
 def compare_cell(d: dict, key: str, digits: int, unit: str, currency: str) -> str:

@@ -16,7 +16,7 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
-from .model import COMPARE_ROWS, compare_cell, fmt
+from .model import COMPARE_ROWS, compare_cell, fmt, safety_label
 
 VERDICT_MARK = {
     "pass": "PASS",
@@ -168,15 +168,23 @@ def render_unit(report: dict, console: Console) -> None:
         f"\n{report['topology']} on {fmt(report['mains']['v_rms_v'], 3, 'V')} "
         f"{fmt(report['mains']['f_hz'], 3, 'Hz')}"
         + ("" if report.get("unit_price") is None else f"; unit price {report['unit_price']}")
-        + f"; {'isolated' if report['isolated'] else 'NOT isolated'}",
+        + f"; {safety_label(report['isolated']).split(':')[0]}",
     )
     console.print(Panel(head, box=box.HEAVY, expand=False))
     if report.get("caution"):
         console.print(Panel(Text(report["caution"], style="bold"), title="SAFETY",
                             border_style="red", box=box.DOUBLE))
     console.print(_state_table(states))
-    console.print(_loss_table(states))
-    console.print(_output_table(states))
+    known = [s for s in states if s.get("balance") is not None]
+    if known:
+        console.print(_loss_table(known))
+        console.print(_output_table(known))
+    for s in states:
+        if s.get("basis"):
+            console.print(Text(f"State '{s['state']}': {s['basis']}", style="dim"))
+    if "circuit_figures" in report:
+        console.print(Text(f"Losses, output and component stresses: "
+                           f"{report['circuit_figures']}.", style="italic"))
     if "hand_estimate" in report:
         h = report["hand_estimate"]
         body = Group(
@@ -195,7 +203,8 @@ def render_unit(report: dict, console: Console) -> None:
     if len(states) > 1:
         console.print(Text("(harmonic tables of the other states: --state NAME or --json)",
                            style="dim"))
-    console.print(_stress_table(report["stresses"]))
+    if report["stresses"] or "circuit_figures" not in report:
+        console.print(_stress_table(report["stresses"]))
     if report.get("compliance"):
         for part in _compliance_tables(report["compliance"]):
             console.print(part)
@@ -264,6 +273,11 @@ def render_fleet(d: dict, console: Console) -> None:
                   fmt(row["p_unit_mean_w"], 3), fmt(row["e_kwh_per_year"], 4),
                   fmt(row["energy_cost_per_year"], 4))
     console.print(g)
+    if d.get("measured"):
+        console.print(Text("Measured gadgets (figures from their files, not simulated):",
+                           style="bold"))
+        for m in d["measured"]:
+            console.print(Text(f"  {m['design']} / {m['state']}: {m['basis']}"))
     if d["conductors"]:
         c = Table(box=box.SIMPLE_HEAD, title="Feeder conductors", title_justify="left",
                   pad_edge=False)

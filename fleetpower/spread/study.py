@@ -166,6 +166,10 @@ def plan_spread(
     InputError
         On a bad sample count or seed, or more corners than a corner analysis enumerates.
     """
+    if not design.topology_impl.simulated:
+        raise InputError(design.source, "topology",
+                         f"a {design.topology} supply has no parts whose tolerances could be "
+                         "spread (it is known only by what was measured)")
     if not corners and samples < 1:
         raise InputError(design.source, "--samples", "needs at least one sample")
     if seed < 0:

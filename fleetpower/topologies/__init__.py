@@ -3,7 +3,8 @@ the registry the design schema is derived from (topology names, parts and output
 
 To add a topology: write its module (parts model, engine row, stresses, ...), give it a
 code and rows in :mod:`fleetpower.engine` if it needs new equations, and add its line to
-:data:`REGISTRY`.
+:data:`REGISTRY`. A topology the engine does not solve (:mod:`.measured`) sets
+``simulated = False`` and gives each case's figures itself (``direct_state``).
 """
 
 from __future__ import annotations
@@ -11,13 +12,15 @@ from __future__ import annotations
 from .base import Topology
 from .capacitive_dropper import TOPOLOGY as _capacitive_dropper
 from .mains_transformer import TOPOLOGY as _mains_transformer
+from .measured import TOPOLOGY as _measured
 from .rectifier_smps import TOPOLOGY as _rectifier_smps
 from .resistive_dropper import TOPOLOGY as _resistive_dropper
 
 #: topology name (the design file's ``topology``) -> its implementation, in menu order
 REGISTRY: dict[str, Topology] = {
     t.name: t
-    for t in (_capacitive_dropper, _resistive_dropper, _rectifier_smps, _mains_transformer)
+    for t in (_capacitive_dropper, _resistive_dropper, _rectifier_smps, _mains_transformer,
+              _measured)
 }
 TOPOLOGIES = tuple(REGISTRY)
 

@@ -9,7 +9,7 @@ engine index or branches on a topology's name.
 
 Owns: :class:`Topology`, :class:`Stress`, :class:`HandEstimate` and the shared row and
 stress helpers. May import :mod:`fleetpower.engine`, :mod:`fleetpower.io.schema`,
-``errors`` and the limit tables; never ``simulate``, ``unit``, ``fleet`` or reports.
+``errors``, ``pq``, the capture reader and the limit tables; never ``simulate``, ``unit``, ``fleet`` or reports.
 """
 
 from __future__ import annotations
@@ -23,6 +23,8 @@ from pydantic import BaseModel
 
 from ..engine import layout as L
 from ..engine.devices import N_RECTIFIER, VT_V, diode_saturation_current_a
+from ..io.schema import parse_load
+from ..pq.ieee1459 import PowerQuality
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..io.design_file import Design
@@ -87,10 +89,38 @@ class Discharge:
     v0_v: float  # voltage it may hold when unplugged (at +10 % mains)
 
 
+@dataclass(frozen=True)
+class DirectState:
+    """One state of a topology the engine does not simulate (:attr:`Topology.simulated`
+    is False), as the topology itself produces it: the figures drawn from the mains and
+    how they were obtained. :func:`fleetpower.simulate.run` turns it into a
+    ``StateResult`` whose circuit-only figures (losses, output, stresses) are ``None``.
+    """
+
+    t_s: np.ndarray  # one cycle [s]
+    v_v: np.ndarray  # voltage over that cycle [V]
+    i_a: np.ndarray  # line current over that cycle [A]
+    pq: PowerQuality
+    #: one sentence: where the figures come from (file, window, scaling model)
+    basis: str
+    #: quality flags of the source data, one line each (shown as warnings)
+    notes: tuple[str, ...] = ()
+    #: voltage-scaling model applied to reach the requested mains (None if none was)
+    voltage_scaling: str | None = None
+
+
 class Topology:
     """One supply topology. Subclasses set the class attributes and override the methods.
 
     (A base class rather than a typing ``Protocol``: most topologies share the defaults.)
+
+    Two kinds exist. A **simulated** topology (``simulated = True``, the default) packs
+    each case into an engine row (:meth:`engine_row`); the engine solves it and the
+    circuit's losses, output and stresses follow. A **direct** topology
+    (``simulated = False``: a measured gadget) produces each case's figures itself
+    (:meth:`direct_state`); what only a circuit can tell is then not known, and reports
+    say so with :attr:`unknown_note`. :func:`fleetpower.simulate.run` is the only place
+    that dispatches on the flag.
     """
 
     #: the design file's ``topology`` value
@@ -109,6 +139,16 @@ class Topology:
     series_resistor_label: ClassVar[str] = "series resistor"
     #: labels of loss probes only this topology writes
     extra_loss_labels: ClassVar[dict[str, str]] = {}
+    #: solved by the engine (False: :meth:`direct_state` gives each case's figures)
+    simulated: ClassVar[bool] = True
+    #: how reports show circuit-only figures a direct topology cannot know
+    unknown_note: ClassVar[str | None] = None
+    #: the design file's table holding :attr:`parts_model`
+    parts_key: ClassVar[str] = "parts"
+    #: tables a design file of this topology must have
+    required_tables: ClassVar[tuple[str, ...]] = ("mains", "parts", "output", "states")
+    #: model of one state's table (None: a state is a load, "20 mA" or "0.5 W")
+    state_model: ClassVar[type[BaseModel] | None] = None
 
     def complete(self, design: Design) -> Design:
         """The design with defaults that depend on other sections filled in (at load,
@@ -118,9 +158,28 @@ class Topology:
     def check(self, design: Design) -> None:
         """Cross-field checks of a validated design; raise ``InputError`` naming the key."""
 
-    def is_isolated(self, design: Design) -> bool:
-        """Whether the output is galvanically isolated from the mains."""
+    def is_isolated(self, design: Design) -> bool | None:
+        """Whether the output is galvanically isolated from the mains (None: not known)."""
         return not self.is_dropper
+
+    def read_state(self, value, *, file: str, key: str):
+        """One state of the design file, validated (a load unless :attr:`state_model`)."""
+        return parse_load(value, file=file, key=key)
+
+    def default_mains(self, states: dict, file: str) -> dict | None:
+        """The ``[mains]`` table when the file has none (only if not required)."""
+        return None
+
+    def load_rank(self, design: Design, state: str) -> float:
+        """A state's weight for choosing the heaviest (rated) and lightest (standby) state."""
+        return design.load_current_a(state)
+
+    def direct_state(self, design: Design, state: str, mains_factor: float,
+                     samples_per_cycle: int) -> DirectState:
+        """The figures of one case of a direct (not simulated) topology: the design in
+        ``state`` on its mains times ``mains_factor``, its waveform over one cycle of
+        ``samples_per_cycle`` samples."""
+        raise NotImplementedError
 
     def engine_row(self, design: Design, state: str, mains_factor: float,
                    load_a: float | None) -> tuple[np.ndarray, np.ndarray]:
