@@ -69,3 +69,11 @@ CAPTURE_H_FLOOR = 0.01
 FREQ_REL = 1e-6
 #: a harmonic table written from a spectrum (10 significant digits) and read back
 TABLE_REL = 1e-7
+
+# --- measured gadgets (issue 13 acceptance) --------------------------------------------
+#: a modelled design exported with --waveform-csv and read back as a measured design:
+#: P, I rms, PF, harmonics and the fleet figures "within 0.1 %" (issue acceptance 2)
+ROUND_TRIP_REL = 1e-3
+#: a voltage-scaling model applied to a spectrum is arithmetic: the scaled figures equal
+#: the hand-derived factor times the measured ones to rounding
+SCALING_REL = 1e-9
