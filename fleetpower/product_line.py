@@ -163,10 +163,12 @@ def _market_rows(rows, market: Market, shipped: set[str]) -> list[dict]:
     return out
 
 
-def _driver(design: Design, analysis: UnitAnalysis) -> tuple[str, str, float, float]:
+def _driver(design: Design, analysis: UnitAnalysis) -> tuple[str, str, float | None, float]:
     """(state, component, its loss [W], input power [W]) of the largest standby loss."""
     state = _standby_state(design) or lightest_state(design)
     res = next((r for r in analysis.states if r.state == state), analysis.states[0])
+    if not res.circuit_known:
+        return res.state, f"(losses {res.unknown_note})", None, float(res.pq.p_w)
     name, watts = max(res.losses_w.items(), key=lambda kv: kv[1])
     return res.state, name, float(watts), float(res.pq.p_w)
 
@@ -175,7 +177,7 @@ def _collapsed(design: Design, analysis: UnitAnalysis) -> list[str]:
     """One sentence per state in which the supply cannot hold its output."""
     out = []
     for r in analysis.states:
-        if r.in_regulation:
+        if r.in_regulation is not False:  # held, or not known (a measured gadget)
             continue
         if design.has_linear_regulator and analysis.max_deliverable_a is not None:
             out.append(f"cannot power its load in state {r.state}: holds "
@@ -305,6 +307,8 @@ def _pair(spec, m: ModelSpec, mk: Market, a: UnitAnalysis, sales, years, checks,
         "installed_co2_kg": float(e_year.sum() * mk.co2_kg_per_kwh),
         "driver_state": drv_state, "driver": drv_part, "driver_w": drv_w,
         "driver_of_p_w": drv_p,
+        **({"figures_basis": [f"{r.state}: {r.basis}" for r in a.states if r.basis]}
+           if any(r.basis for r in a.states) else {}),
         "isolated": d.is_isolated,
     }
 

@@ -260,3 +260,16 @@ def test_measured_design_in_compare_states_unknown_isolation_and_losses():
 def test_spread_refuses_a_measured_design():
     code, _, err = _run("spread", example_path(MEASURED), "--samples", "2")
     assert code == 2 and "no parts" in err
+
+
+def test_measured_design_in_a_product_line(tmp_path):
+    line = tmp_path / "line.toml"
+    line.write_text(f'name = "test line"\nsales_years = 1\n[[model]]\nname = "plug"\n'
+                    f'design = "{example_path(MEASURED).as_posix()}"\nservice_life_years = 6\n'
+                    'hours = { relay_on = 4, standby = 20 }\n[model.sales]\nEU = 1000\n'
+                    'US = 500\n', encoding="utf-8")
+    report = _json("line", line)
+    text = json.dumps(report)
+    # on the US market's 120 V the declared constant-power model is named with its factors
+    assert "as constant-power (declared)" in text
+    assert "not known for a measured supply" in text
