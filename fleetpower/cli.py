@@ -165,16 +165,127 @@ def cmd_limits(args) -> int:
     if args.json:
         print(df.to_json(orient="records", indent=2))
         return 0
-    cols = [c for c in ("quantity", "harmonic", "limit", "unit", "kind", "direction",
-                        "applies_from_w", "applies_to_w", "clause", "provenance", "note")
-            if c in df.columns]
-    t = Table(title=f"Limit set {args.set}", title_justify="left")
-    for c in cols:
-        t.add_column(c, overflow="fold")
-    for row in df[cols].itertuples(index=False):
-        t.add_row(*["" if (isinstance(v, float) and v != v) else str(v) for v in row])
+    header, columns, rows = limit_set_view(df)
+    console.print(f"[bold]Limit set {args.set}[/bold]")
+    for label, value in header:
+        console.print(f"  {label}: {value}", highlight=False)
+    t = Table(box=None, pad_edge=False, header_style="bold")
+    for c in columns:
+        t.add_column(c, overflow="fold", justify="right" if c in ("h", "limit") else "left")
+    for row in rows:
+        t.add_row(*row)
     console.print(t)
     return 0
+
+
+#: a person's name for each limited quantity of the shipped tables (the key stays in --json)
+QUANTITY_LABELS = {
+    "avg_active_eff_frac": "average active efficiency",
+    "c_min_f": "capacitance above which it applies",
+    "networked_standby_hina_p_w": "networked standby power (high network availability)",
+    "networked_standby_p_w": "networked standby power",
+    "no_load_p_w": "no-load input power",
+    "off_p_w": "off-mode power",
+    "standby_display_p_w": "standby power with a display",
+    "standby_p_w": "standby power",
+    "t_discharge_s": "time to discharge",
+    "tdd_pct": "total demand distortion",
+    "thd_v_pct": "voltage THD",
+    "v_h_individual_pct": "any single voltage harmonic",
+    "v_threshold_v": "voltage the pins must fall below",
+}
+_KIND_UNITS = {"pct_of_fundamental": "% of I1", "pct_of_fundamental_times_pf": "% of I1 x PF",
+               "pct_of_il": "% of I_L", "per_watt": "A/W"}
+
+
+def quantity_label(key: str) -> str:
+    """A person's name for a limited quantity (``i_h3_a`` -> "harmonic current")."""
+    if key.startswith("i_h") and key[3:].split("_")[0].isdigit():
+        return "harmonic current"
+    return QUANTITY_LABELS.get(key, key.replace("_", " "))
+
+
+def _num(v) -> str:
+    return "" if v is None or v != v else f"{v:g}"
+
+
+def _limit_text(r) -> str:
+    if r["kind"] == "formula":
+        coef = ", ".join(f"{k} = {_num(r[k])}" for k in ("a", "b", "c") if _num(r[k]))
+        return f"{r['form'].replace('_', '-')} in P ({coef})"
+    if r["kind"] in _KIND_UNITS:
+        return f"{_num(r['limit'])} {_KIND_UNITS[r['kind']]}"
+    return si_text(r["limit"], r["unit"])
+
+
+_SI_PREFIXES = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
+                (1e-9, "n"), (1e-12, "p"))
+
+
+def si_text(value: float, unit: str, digits: int = 3) -> str:
+    """``value`` with an SI prefix and ``digits`` significant figures (1e-07 F -> 100 nF).
+
+    Only SI units take a prefix (V, A, W, VA, var, F, H, Hz, s, J, ohm); others print as
+    they are.
+    """
+    if value != value:
+        return ""
+    if unit not in ("V", "A", "W", "VA", "var", "F", "H", "Hz", "s", "J", "ohm") or value == 0:
+        return f"{value:.{digits}g} {unit}".strip()
+    value = float(f"{value:.{digits}g}")  # round first: 999.9 V -> 1 kV, not 1e+03 V
+    scale, prefix = next(((k, p) for k, p in _SI_PREFIXES if abs(value) >= k * (1 - 1e-12)),
+                         _SI_PREFIXES[-1])
+    return f"{value / scale:.{digits}g} {prefix}{unit}"
+
+
+def _applies_text(r) -> str:
+    lo, hi = _num(r["applies_from_w"]), _num(r["applies_to_w"])
+    parts = []
+    if lo and hi:
+        parts.append(f"{lo}-{hi} W")
+    elif lo:
+        parts.append(f"above {lo} W")
+    elif hi:
+        parts.append(f"up to {hi} W")
+    if r.get("range_on"):
+        name = {"isc_over_il": "Isc/I_L", "bus_kv": "bus kV"}.get(r["range_on"], r["range_on"])
+        a, b = _num(r["range_from"]), _num(r["range_to"])
+        parts.append(f"{a or '0'} <= {name} < {b}" if b else f"{name} >= {a}")
+    return "; ".join(parts)
+
+
+def limit_set_view(df) -> tuple[list[tuple[str, str]], list[str], list[list[str]]]:
+    """One limit set as (header lines shown once, table columns, table rows).
+
+    What is the same on every row (title, edition, clause, provenance, direction, where
+    it applies) is said once above the table; harmonic orders are integers; a limited
+    quantity gets a person's name, never its key.
+    """
+    recs = df.to_dict("records")
+    cols = {
+        "quantity": [quantity_label(r["quantity"]) for r in recs],
+        "h": ["" if r["harmonic"] != r["harmonic"] else str(int(r["harmonic"]))
+              for r in recs],
+        "limit": [_limit_text(r) for r in recs],
+        "must be": [{"max": "at most", "min": "at least"}.get(r["direction"], r["direction"])
+                    for r in recs],
+        "applies": [_applies_text(r) for r in recs],
+        "in force from": [r["in_force_from"] for r in recs],
+        "clause": [r["clause"] for r in recs],
+        "provenance": [r["provenance"] for r in recs],
+        "note": [r["note"] for r in recs],
+    }
+    header = [("title", recs[0]["title"]), ("edition", recs[0]["edition"])]
+    shown = []
+    for name, values in cols.items():
+        distinct = set(values)
+        if name in ("quantity", "limit") or len(distinct) > 1:
+            shown.append(name)
+        elif values[0]:
+            header.append((name, values[0]))
+    header = [(k, v) for k, v in header if v]
+    rows = [[cols[c][k] for c in shown] for k in range(len(recs))]
+    return header, shown, rows
 
 
 def _progress_printer(what: str = "simulated"):
