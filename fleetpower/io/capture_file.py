@@ -35,7 +35,6 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import pint
 
 from ..errors import InputError
 from ..units import registry
@@ -105,6 +104,8 @@ def _unit_factor(file: str, col: str, unit: str, role: str) -> float:
     if not unit:
         raise InputError(file, f"column {col!r}",
                          f"no unit; write the header as '{col.strip()} [{_EXAMPLE_UNIT[role]}]'")
+    import pint  # here, not at the top: pint (and what it pulls in) costs a quick command
+
     ureg = registry()
     cleaned = unit.replace("µ", "u").replace("μ", "u")
     try:

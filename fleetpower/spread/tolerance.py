@@ -41,7 +41,6 @@ from typing import Any, Literal
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, ValidationError
-from scipy.special import ndtr, ndtri
 
 from ..errors import InputError, suggest
 from ..units import parse_quantity
@@ -228,6 +227,8 @@ class PartSpread:
         if self.distribution == "uniform":
             return self.nominal * (1.0 + self.band * (2.0 * u - 1.0))
         if self.distribution == "normal":
+            from scipy.special import ndtr, ndtri  # only when sampling: a quick `unit` skips it
+
             edge = float(ndtr(-NORMAL_TRUNCATION_SIGMAS))
             z = ndtri(np.clip(u, edge, 1.0 - edge))
             return self.nominal * (1.0 + (self.band / self.sigmas) * z)
