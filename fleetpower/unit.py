@@ -23,14 +23,11 @@ from .io.design_file import ConverterOutput, Design
 from .limits.applicability import eps_figures, unit_compliance
 from .simulate import Balance, StateResult, circuit_rows, simulate, simulate_cases  # noqa: F401
 from .topologies.base import (  # noqa: F401 (re-exported)
-    DISCHARGE_SETS,
     INRUSH_RESISTOR_RANGE_OHM,
     LOSS_LABELS,
     STRESS_MAINS_FACTOR,
     HandEstimate,
     Stress,
-    discharge_rules,
-    discharge_time_s,
 )
 
 NON_ISOLATION_CAUTION = (
@@ -54,16 +51,14 @@ ISOLATION_UNKNOWN_CAUTION = (
 def max_deliverable_current_a(
     design: Design, mains_factor: float = 1.0, rounds: int = 2, points: int = 12
 ) -> float:
-    """Largest output current [A] a dropper sustains in regulation.
+    """Largest output current [A] a supply sustains in regulation.
 
     Found by bracketing: each round lays ``points`` loads evenly between the last bracket's
     ends and narrows to the last load whose reservoir minimum stays above output voltage +
-    dropout. Within a round the grid is searched by bisection (the regulation margin
+    dropout (linear regulator) or the converter's undervoltage lockout. Within a round the grid is searched by bisection (the regulation margin
     falls as the load rises), so a round costs about log2(points) solves instead of
     ``points``, and the answer is the same grid load an exhaustive scan finds.
     """
-    if not design.has_linear_regulator:
-        raise ValueError("only linear-regulator supplies have a current limit set by their parts")
     state = next(iter(design.states))
 
     def holds(load_a: float) -> bool:
@@ -172,6 +167,8 @@ def analyse_unit(design: Design, states: list[str] | None = None,
                 )
         hand = hand_estimate(design, max_a) if max_a is not None else None
     else:
+        if any(not r.in_regulation for r in nominal):
+            max_a = max_deliverable_current_a(design)
         for r in nominal:
             if r.in_regulation is False:
                 warnings.append(
@@ -202,7 +199,8 @@ def analyse_unit(design: Design, states: list[str] | None = None,
                  if design.is_isolated is False else ISOLATION_UNKNOWN_CAUTION),
         max_deliverable_a=max_a,
         hand=hand,
-        eps=eps_figures(design) if isinstance(design.output, ConverterOutput) else None,
+        eps=(eps_figures(design) if design.external_power_supply
+             and isinstance(design.output, ConverterOutput) else None),
     )
     rows = unit_compliance(design, unit, limits_file=limits_file)
     return replace(unit, compliance=tuple(rows))

@@ -63,6 +63,8 @@ class Design(BaseModel):
     lighting: bool = False
     isolated: bool | None = None
     rated_state: str | None = None
+    standby_state: str | None = None  # the state the EU standby rule applies to
+    external_power_supply: bool = False  # declared an EPS: the EPS rules apply
     mains: Mains
     parts: _PartsUnion
     output: _OutputUnion
@@ -219,12 +221,13 @@ def design_from_dict(data: dict, file: str = "<input>") -> Design:
         )
     except ValidationError as exc:
         raise _fail(file, exc, (), Design) from None
-    if design.rated_state is not None and design.rated_state not in design.states:
-        raise InputError(
-            file,
-            "rated_state",
-            f"unknown state {design.rated_state!r}{suggest(design.rated_state, design.states)}",
-        )
+    for key in ("rated_state", "standby_state"):
+        name = getattr(design, key)
+        if name is not None and name not in design.states:
+            raise InputError(
+                file, key, f"unknown state {name!r}{suggest(name, design.states)}; the "
+                f"states are {', '.join(design.states)}",
+            )
     design = design.topology_impl.complete(design)
     design.topology_impl.check(design)
     return design

@@ -18,12 +18,13 @@ import importlib
 #: command (``fleetpower limits``) does not pay for pandas
 _EXPORTS = {
     **dict.fromkeys(
-        ("average_active_efficiency", "evaluate_discharge", "evaluate_eps",
+        ("average_active_efficiency", "evaluate_discharge", "evaluate_discharge_rules",
+         "evaluate_eps",
          "evaluate_harmonic_emissions", "evaluate_ieee519", "evaluate_ieee519_voltage",
          "evaluate_standby", "evaluate_user_set", "formula_limit", "ieee519_row"),
         "rules"),
     **dict.fromkeys(("COLUMNS", "ComplianceRow", "limits_dir", "list_limit_sets",
-                     "load_limit_set", "margin"), "tables"),
+                     "load_limit_set", "load_scopes", "margin"), "tables"),
 }
 
 
@@ -38,6 +39,7 @@ __all__ = [
     "ComplianceRow",
     "average_active_efficiency",
     "evaluate_discharge",
+    "evaluate_discharge_rules",
     "evaluate_eps",
     "evaluate_harmonic_emissions",
     "evaluate_ieee519",
@@ -49,5 +51,6 @@ __all__ = [
     "limits_dir",
     "list_limit_sets",
     "load_limit_set",
+    "load_scopes",
     "margin",
 ]

@@ -43,6 +43,7 @@ from .tables import (
     covers_range,
     limit_frame,
     make_row,
+    margin,
     not_applicable_row,
 )
 
@@ -614,6 +615,90 @@ def evaluate_discharge(
     ]
 
 
+#: The plug-pin discharge rules every capacitor across the pins is checked against.
+DISCHARGE_RULES: tuple[str, ...] = ("iec60335-1", "iec62368-1")
+
+
+def evaluate_discharge_rules(
+    v0_v: float, r_bleed_ohm: float, c_f: float, rules: Sequence[str] = DISCHARGE_RULES
+) -> ComplianceRow:
+    r"""One check of a capacitor's discharge after unplugging, against every rule covering it.
+
+    Parameters
+    ----------
+    v0_v : float
+        Capacitor voltage at the instant of disconnection [V].
+    r_bleed_ohm : float
+        Discharge (bleeder) resistance [ohm].
+    c_f : float
+        Capacitance across the pins [F].
+    rules : sequence of str
+        Rule names of :func:`evaluate_discharge`.
+
+    Returns
+    -------
+    ComplianceRow
+        ``tau_discharge_s``: the time constant τ = R·C [s] against the largest τ every
+        covering rule allows. Failing, its ``set``, ``edition`` and ``clause`` cite every
+        rule broken (and only those); passing, every rule that covers the capacitor.
+        "not applicable" when no rule covers it.
+
+    Notes
+    -----
+    One physical fact decides every rule: the exponential RC decay
+    :math:`V(t) = V_0 e^{-t/\tau}`. A rule "at most :math:`V_{th}` after :math:`t_a`"
+    is met when :math:`V_0 e^{-t_a/\tau} \le V_{th}`, i.e.
+    :math:`\tau \le t_a / \ln(V_0/V_{th})` (any τ when :math:`V_0 \le V_{th}`).
+    Each rule's own threshold, time and coverage come from :func:`evaluate_discharge`,
+    whose verdict decides whether that rule is broken; this function only joins them
+    into one check, so a slow discharge is one failure however many rules it breaks.
+
+    References
+    ----------
+    IEC 60335-1 clause 22.5; IEC 62368-1 clause 5.5.2.2 (from memory).
+    """
+    tau_s = float(r_bleed_ohm) * float(c_f)
+    v0_v = float(v0_v)
+    applied = []  # (set id, allowed tau, broken, edition, clause, provenance, detail)
+    skipped = []
+    for rule in rules:
+        rows = evaluate_discharge(v0_v, r_bleed_ohm, c_f, rule=rule)
+        if rows[0].verdict == "not applicable":
+            skipped.append(f"{rows[0].set}: {rows[0].reason}")
+            continue
+        t_row, v_row = rows
+        v_th, t_allowed = float(v_row.limit), float(t_row.limit)
+        tau_max = t_allowed / math.log(v0_v / v_th) if v0_v > v_th else math.inf
+        detail = (f"{t_row.edition.split(':')[0]}: {v_th:g} V after {t_row.value:.3g} s "
+                  f"({t_allowed:g} s allowed)")
+        applied.append((t_row.set, tau_max, t_row.verdict == "fail", t_row.edition,
+                        t_row.clause, t_row.provenance, detail))
+    note = f"tau = R·C = {tau_s:.3g} s from V0 = {v0_v:.0f} V"
+    if not applied:
+        return ComplianceRow("discharge", "tau_discharge_s", tau_s, None, "s", None, None,
+                             "not applicable", "", "", "", "; ".join([note, *skipped]))
+    broken = [a for a in applied if a[2]]
+    cited = broken or applied
+    limit = min(a[1] for a in applied)
+    join = " + ".join
+    common = dict(set=join(a[0] for a in cited), quantity="tau_discharge_s", unit="s",
+                  edition="; ".join(a[3] for a in cited),
+                  clause="; ".join(f"{a[3].split(':')[0]} {a[4]}" for a in cited),
+                  provenance="; ".join(dict.fromkeys(a[5] for a in cited)),
+                  reason="; ".join([note, *(a[6] for a in applied), *skipped]))
+    if not math.isfinite(limit):
+        return ComplianceRow(value=tau_s, limit=None, used_pct=None, headroom=None,
+                             verdict="pass", **common)
+    used, head, _ = margin(tau_s, limit, "max")
+    verdict = "fail" if broken else "pass"
+    if verdict == "pass" and used > 100.0:  # at the limit within rounding: the rules decide
+        used, head = 100.0, 0.0
+    elif verdict == "fail" and used <= 100.0:
+        used, head = math.nextafter(100.0, math.inf), min(head, -0.0)
+    return ComplianceRow(value=tau_s, limit=limit, used_pct=used, headroom=head,
+                         verdict=verdict, **common)
+
+
 # --------------------------------------------------------------------------------------
 # user sets
 # --------------------------------------------------------------------------------------
@@ -669,6 +754,7 @@ def evaluate_user_set(
 __all__ = [
     "average_active_efficiency",
     "evaluate_discharge",
+    "evaluate_discharge_rules",
     "evaluate_eps",
     "evaluate_harmonic_emissions",
     "evaluate_ieee519",

@@ -343,8 +343,69 @@ def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> pd.Dat
     return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=COLUMNS)
 
 
+#: The scope table (products, market and mains of each shipped set); not a limit table.
+SCOPE_FILE = "scope.csv"
+#: Its columns: which products and mains a set covers, and where that comes from.
+SCOPE_COLUMNS: tuple[str, ...] = (
+    "set", "products", "market", "v_ln_min_v", "v_ln_max_v", "frequency_hz",
+    "outside_mains", "requires", "edition", "clause", "provenance", "note",
+)  # fmt: skip
+SCOPE_REQUIRES: tuple[str, ...] = ("", "standby_state", "external_power_supply")
+SCOPE_OUTSIDE: tuple[str, ...] = ("out of scope", "for information")
+
+
+@functools.lru_cache(maxsize=4)
+def _scopes_cached(path: str, stamp: float) -> pd.DataFrame:
+    file = path
+    try:
+        raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
+        raise InputError(file, "", f"cannot read the scope table: {exc}") from None
+    if tuple(raw.columns) != SCOPE_COLUMNS:
+        raise InputError(file, "row 1", f"columns must be {', '.join(SCOPE_COLUMNS)}")
+    raw = raw.apply(lambda s: s.str.strip())
+    for i, rec in enumerate(raw.to_dict("records")):
+        for col, choices in (("requires", SCOPE_REQUIRES), ("outside_mains", SCOPE_OUTSIDE)):
+            if rec[col] not in choices:
+                raise InputError(file, f"row {i + 2}, column {col}",
+                                 f"'{rec[col]}' is not one of {', '.join(choices)}")
+        for col in ("set", "products", "market", "edition", "clause", "provenance"):
+            if rec[col] == "":
+                raise InputError(file, f"row {i + 2}, column {col}", "empty cell")
+    for col in ("v_ln_min_v", "v_ln_max_v", "frequency_hz"):
+        raw[col] = [np.nan if x == "" else _as_float(x, file, i + 2, col)
+                    for i, x in enumerate(raw[col])]
+    return raw
+
+
+def load_scopes() -> pd.DataFrame:
+    """The scope of every shipped limit set: products, market and mains it covers.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per set id, columns :data:`SCOPE_COLUMNS`: ``products`` and ``market``
+        (text), ``v_ln_min_v``/``v_ln_max_v`` [V] line-to-neutral and ``frequency_hz``
+        [Hz] of the mains the set is written for (NaN = any), ``outside_mains`` (what a
+        row on other mains says: ``out of scope`` or ``for information``), ``requires``
+        (a design declaration the set needs: ``standby_state``,
+        ``external_power_supply`` or nothing), and ``edition``, ``clause``,
+        ``provenance``, ``note`` of the scope statement itself.
+
+    References
+    ----------
+    Format: ``data/limits/README.md`` (this project); the scope clause of each set is
+    in its ``clause`` column.
+    """
+    path = limits_dir() / SCOPE_FILE
+    if not path.is_file():
+        raise FleetpowerError(f"no scope table {path}: the installation is incomplete "
+                              "(reinstall fleetpower)")
+    return _scopes_cached(str(path), path.stat().st_mtime).copy()
+
+
 def _stamp() -> tuple[tuple[str, float], ...]:
-    files = sorted(limits_dir().glob("*.csv"))
+    files = sorted(f for f in limits_dir().glob("*.csv") if f.name != SCOPE_FILE)
     if not files:
         raise FleetpowerError(f"no limit tables found in {limits_dir()}: the installation "
                               "is incomplete (reinstall fleetpower)")

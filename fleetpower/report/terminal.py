@@ -24,11 +24,16 @@ VERDICT_MARK = {
     "unrated": "no rating",
     "note": "info",
     "not applicable": "n/a",
+    "exempt": "exempt",
+    "not evaluated": "not evaluated",
+    "for information": "for information",
+    "out of scope": "out of scope",
 }
 
 
 VERDICT_STYLE = {"pass": "green", "fail": "bold red", "unrated": "yellow", "note": "cyan",
-                 "not applicable": "dim"}
+                 "not applicable": "dim", "exempt": "green", "not evaluated": "yellow",
+                 "for information": "dim", "out of scope": "dim"}
 
 
 def _verdict(v: str) -> Text:
@@ -150,9 +155,14 @@ def _compliance_tables(rows: list[dict]) -> list:
         for r in group:
             unit = "" if r.get("unit") in ("1", "-") else r.get("unit", "")
             used = "" if r.get("used_pct") is None else f"{r['used_pct']:.0f} %"
+            scope = r.get("scope", "in scope")
+            why = r.get("reason") or r.get("clause", "")
+            if scope != "in scope":
+                why = scope + (f"; {r['reason']}" if r.get("reason") else "")
+            # out of scope: shown, dimmed, never as a pass or a failure
             t.add_row(r["quantity"], fmt(r.get("value"), 3, unit), fmt(r.get("limit"), 3, unit),
-                      used, fmt(r.get("headroom"), 2, unit), _verdict(r["verdict"]),
-                      r.get("reason") or r.get("clause", ""))
+                      used, fmt(r.get("headroom"), 2, unit), _verdict(r["verdict"]), why,
+                      style="dim" if scope != "in scope" else None)
         out.append(t)
     out.append(Text("Margins against the tables in data/limits/ (mostly from memory): an "
                     "engineering aid, not a certification; the standards' texts, local "

@@ -31,8 +31,6 @@ if TYPE_CHECKING:  # pragma: no cover
 
 #: Mains factor at which stresses are assessed (+10 % mains, common practice, no source)
 STRESS_MAINS_FACTOR = 1.10
-#: Limit sets whose plug-pin discharge rows the stress check applies (data/limits/)
-DISCHARGE_SETS = ("iec62368-1-discharge", "iec60335-1-discharge")
 #: Usual inrush-resistor range for droppers [ohm] (common practice, no source)
 INRUSH_RESISTOR_RANGE_OHM = (10.0, 30.0)
 
@@ -268,25 +266,6 @@ def capacitor_voltage(name, v_peak, v_rms, rating, kind, cond, note=""):
     return [peak, rms]
 
 
-def discharge_time_s(v0_v: float, v_th_v: float, r_ohm: float, c_f: float) -> float:
-    """Time [s] for an RC discharge from ``v0_v`` to fall below ``v_th_v``: RC ln(V0/Vth)."""
-    return 0.0 if v0_v <= v_th_v else r_ohm * c_f * math.log(v0_v / v_th_v)
-
-
-def discharge_rules() -> list[tuple[float, float, str]]:
-    """(threshold [V], allowed time [s], source) of the shipped plug-pin discharge sets."""
-    from ..limits.tables import load_limit_set
-
-    rules = []
-    for name in DISCHARGE_SETS:
-        df = load_limit_set(name)
-        v_th = float(df.loc[df["quantity"] == "v_threshold_v", "limit"].iloc[0])
-        row = df.loc[df["quantity"] == "t_discharge_s"].iloc[0]
-        rules.append((v_th, float(row["limit"]),
-                      f"{row['edition']} {row['clause']} ({row['provenance']})"))
-    return rules
-
-
 def series_stresses(design: Design, stressed: list, *, r_inrush: float, cap: float | None,
                     rb: float | None, v_cap: float, resistor_name: str,
                     resistor_rating: float | None, inrush_minimum: bool,
@@ -314,11 +293,8 @@ def series_stresses(design: Design, stressed: list, *, r_inrush: float, cap: flo
     if cap is not None:
         pb = max(r.p_bleeder_w for r in stressed)
         out.append(rated("bleeder dissipation", pb, "W", parts.bleeder_power_rating, cond))
-        for v_th, t_max, source in discharge_rules():
-            t = discharge_time_s(v_cap, v_th, rb, cap)
-            out.append(Stress(f"discharge to {v_th:.0f} V after unplugging", t, "s", t_max,
-                              "pass" if t <= t_max else "fail",
-                              f"from {v_cap:.0f} V through the bleeder alone", source))
+        # the plug-pin discharge is one compliance check, not a stress
+        # (Topology.discharge -> limits.evaluate_discharge_rules)
     return out
 
 

@@ -107,6 +107,10 @@ class RectifierSmps(Topology):
             resistor_rating=parts.series_resistor_power_rating, inrush_minimum=False,
             front=front)
 
+    def deliverable_ceiling_a(self, design):
+        # searched up to 1.5 times the rated output; a result at the bound means "at least"
+        return 1.5 * design.output.rated_power / design.output.voltage
+
     def discharge(self, design, stresses):
         v0 = design.mains.voltage * 2**0.5 * STRESS_MAINS_FACTOR
         return Discharge(design.parts.x_capacitance, design.parts.bleeder_resistance, v0)
