@@ -9,7 +9,7 @@ dearer design against the cheapest to buy, and a one-line recommendation with it
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import pandas as pd
@@ -26,6 +26,80 @@ from .unit import UnitAnalysis, analyse_unit
 DEFAULT_YEARS = 10
 DEFAULT_RATE = 0.05
 DEFAULT_ESCALATION = 0.02
+
+
+@dataclass(frozen=True)
+class Failure:
+    """One failed check: what failed (one line), what passing would need, and its key.
+
+    ``collapse`` marks a supply that cannot power its load (its energy and cost are those
+    of a supply out of regulation). ``key`` identifies the same check across candidates.
+    """
+
+    key: str
+    text: str
+    need: str
+    collapse: bool = False
+
+
+def _num(x, unit: str) -> str:
+    return f"{x:.3g} {unit}".rstrip() if x is not None else "?"
+
+
+def _row_failure(r: dict, where: str = "") -> Failure:
+    """A failed compliance row as a Failure."""
+    unit = "" if r.get("unit") in ("1", "-") else r.get("unit", "")
+    if r["set"] == "output-regulation":
+        text = r["reason"].split(" (the reservoir")[0]
+        state = r["reason"].split("'")[1]
+        need = f"to power its load in state '{state}'"
+        if "holds " in text:
+            asked = text.split(" of ")[-1]
+            held = text.split("holds ")[1].split(" of ")[0]
+            need = f"to hold {asked} in state '{state}' (holds {held})"
+        return Failure(f"regulation {where}{state}", text, need, collapse=True)
+    word = "at least" if r["quantity"] == "avg_active_eff_frac" or (
+        r.get("value") is not None and r.get("limit") is not None
+        and r.get("headroom") is not None and r["value"] < r["limit"]
+        and r["headroom"] < 0) else "at most"
+    text = f"{r['set']} {r['quantity']}" + (f" ({where.strip()})" if where else "")
+    need = (f"{r['set']} {r['quantity']} {word} {_num(r.get('limit'), unit)} "
+            f"(now {_num(r.get('value'), unit)})")
+    return Failure(f"{r['set']} {r['quantity']} {where}".strip(), text, need)
+
+
+def candidate_failures(unit_compliance: list[dict], unit: UnitAnalysis,
+                       fleet: FleetResult, design_name: str) -> list[Failure]:
+    """Every failed check of one candidate on its fleet (shared ones not yet removed).
+
+    The candidate's own regulation is its unit check; the fleet's copy is not counted
+    twice.
+    """
+    out = [_row_failure(r) for r in unit_compliance if r["verdict"] == "fail"]
+    out += [Failure(f"stress {s.item}", f"stress: {s.item}",
+                    f"{s.item} within {_num(s.limit, s.unit)} (now {_num(s.value, s.unit)})")
+            for s in unit.stresses if s.verdict == "fail"]
+    out += fleet_failures(fleet, skip_design=design_name)
+    return out
+
+
+def fleet_failures(fleet: FleetResult, skip_design: str | None = None) -> list[Failure]:
+    """Failed checks of a whole fleet: IEEE 519, conductors, designs out of regulation."""
+    out = []
+    for r in fleet.compliance:
+        if r["verdict"] == "fail":
+            where = r.get("phase") or ""
+            f = _row_failure(r, f"{where} " if where else "")
+            text = f"IEEE 519 {r['quantity']}" + (f" on {where}" if where else "")
+            out.append(replace(f, key="fleet " + f.key, text=text))
+    out += [Failure(f"conductor {c['conductor']}",
+                    f"{c['conductor']} conductor {c['used_pct']:.0f} %",
+                    f"{c['conductor']} conductor at most 100 % of its rating "
+                    f"(now {c['used_pct']:.0f} %)")
+            for c in fleet.conductors if c["verdict"] == "over"]
+    out += [Failure(f["check"], f["text"], f["need"], collapse=True)
+            for f in fleet.failures if f["design"] != skip_design]
+    return out
 
 
 @dataclass(frozen=True)
@@ -48,17 +122,17 @@ class Candidate:
     def lifetime_cost(self) -> float:
         return float(self.lifetime["cost_cumulative_discounted"].iloc[-1])
 
+    failures: list = field(default_factory=list)  # this candidate's own failed checks
+
     @property
-    def failures(self) -> list[str]:
-        """Every failed verdict: unit limits, stresses, fleet limits, conductors."""
-        out = [f"{r['set']} {r['quantity']}" for r in self.unit_compliance
-               if r["verdict"] == "fail"]
-        out += [f"stress: {s.item}" for s in self.unit.stresses if s.verdict == "fail"]
-        out += [f"IEEE 519 {r['quantity']} on {r['phase']}" for r in self.fleet.compliance
-                if r["verdict"] == "fail"]
-        out += [f"{c['conductor']} conductor {c['used_pct']:.0f} %"
-                for c in self.fleet.conductors if c["verdict"] == "over"]
-        return out
+    def collapsed(self) -> bool:
+        """The candidate cannot power its load in some state (its energy and cost are
+        those of a supply out of regulation)."""
+        return any(f.collapse for f in self.failures)
+
+    @property
+    def collapsed_states(self) -> list[str]:
+        return [f.key.split()[-1] for f in self.failures if f.collapse]
 
 
 @dataclass(frozen=True)
@@ -74,6 +148,8 @@ class Comparison:
     recommendation: str
     #: what the designs enter as: None for their nominals, else e.g. "P95 of its own spread"
     basis: str | None = None
+    shared_failures: list = field(default_factory=list)  # every candidate's, not deciding
+    baseline: str | None = None  # the payback baseline (cheapest to buy that holds its load)
 
 
 def replace_role(spec: FleetSpec, path: Path, design: Design) -> tuple[FleetSpec, int]:
@@ -110,8 +186,8 @@ def replace_role(spec: FleetSpec, path: Path, design: Design) -> tuple[FleetSpec
 
 
 def _driver(unit: UnitAnalysis) -> str:
-    """The largest loss of the standby (lightest) state, as a sentence."""
-    light = lightest_state(unit.design)
+    """The largest loss of the standby state (named, else the lightest), as a sentence."""
+    light = unit.design.standby_state or lightest_state(unit.design)
     res = next((r for r in unit.states if r.state == light), unit.states[0])
     if not res.circuit_known:
         return f"{res.pq.p_w:.2f} W per unit at {res.state}; where it goes is {res.unknown_note}"
@@ -192,17 +268,23 @@ def compare(
         candidates.append(Candidate(
             label=path.stem, path=path, design=on_site, unit=unit, unit_compliance=uc,
             fleet=result, replaced_units=replaced, purchase_cost=purchase,
-            annual_cost=annual, lifetime=life, driver=_driver(unit)))
+            annual_cost=annual, lifetime=life, driver=_driver(unit),
+            failures=candidate_failures(uc, unit, result, on_site.name)))
+    shared = shared_failures(spec, candidates)
+    keys = {f.key for f in shared}
+    candidates = [replace(c, failures=[f for f in c.failures if f.key not in keys])
+                  for c in candidates]
     paybacks = []
-    cheapest = min(candidates, key=lambda c: (c.purchase_cost, c.label))
-    for c in candidates:
+    holding = [c for c in candidates if not c.collapsed]
+    cheapest = min(holding, key=lambda c: (c.purchase_cost, c.label)) if holding else None
+    for c in holding:
         if c is cheapest:
             continue
         pb = E.payback_year(c.lifetime["cost_cumulative_discounted"].to_numpy(),
                             cheapest.lifetime["cost_cumulative_discounted"].to_numpy())
         reason = pb.reason.replace("design a", c.label).replace("design b", cheapest.label)
         if pb.year is not None:
-            reason += f" against {cheapest.label}, the cheapest to buy"
+            reason += f" against {cheapest.label}, the cheapest to buy that powers its load"
         paybacks.append({"design": c.label, "against": cheapest.label,
                          "payback_year": pb.year, "reason": reason})
     return Comparison(
@@ -211,28 +293,51 @@ def compare(
         recommendation=recommend(candidates, years, spec.site.currency),
         basis=None if at is None else (f"each design at P{at:g} of its own spread of input "
                                        f"power ({at_samples} units, seed {at_seed})"),
+        shared_failures=shared, baseline=None if cheapest is None else cheapest.label,
     )
 
 
-def recommend(candidates: list[Candidate], years: int, currency: str) -> str:
-    """One line: the lowest lifetime cost among candidates with no failed verdict.
+def shared_failures(spec: FleetSpec, candidates: list[Candidate]) -> list[Failure]:
+    """Failures of the groups no candidate replaces, which every candidate therefore shares.
 
-    If every candidate fails something, the one with the fewest failures (then lowest
-    cost) is named, and the line says it still fails.
+    The fleet is evaluated without the replaced groups; its failed checks (IEEE 519,
+    conductors, a design out of regulation) are every candidate's and decide nothing.
+    """
+    role = candidates[0].design.role
+    rest = [g for g in spec.groups if spec.designs[g.design_path].role != role]
+    if not rest:
+        return []
+    used = {g.design_path for g in rest}
+    designs = {p: d for p, d in spec.designs.items() if p in used}
+    rest_spec = replace(spec, groups=rest, designs=designs)
+    return fleet_failures(evaluate_fleet(rest_spec, unit_catalogue(designs)))
+
+
+def _why_out(c: Candidate) -> str:
+    first = next((f for f in c.failures if f.collapse), c.failures[0])
+    return f"{c.label} {first.text}" if first.collapse else f"{c.label} fails {first.text}"
+
+
+def recommend(candidates: list[Candidate], years: int, currency: str) -> str:
+    """One line: the lowest lifetime cost among candidates with no failed check of their own.
+
+    A candidate that cannot power its load counts as failing (whatever its cost). Failures
+    every candidate shares (groups they do not replace) are not theirs and decide nothing.
+    When none passes, the line says so and what each would need; it names no choice.
     """
     clean = [c for c in candidates if not c.failures]
-    pool = clean or sorted(candidates, key=lambda c: len(c.failures))[:1]
-    best = min(pool, key=lambda c: (c.lifetime_cost, c.label))
-    others = [c for c in candidates if c is not best]
-    why = f"lowest {years}-year cost of ownership ({best.lifetime_cost:,.0f} {currency})"
     if not clean:
-        why = f"fewest failed checks ({len(best.failures)}: {best.failures[0]}), then cost"
-    elif any(c.failures for c in others):
-        failing = [c for c in others if c.failures]
-        why += "; " + "; ".join(f"{c.label} fails {c.failures[0]}" for c in failing[:2])
-    cheaper = [c for c in others if c.lifetime_cost < best.lifetime_cost]
-    if cheaper and clean:
-        why += f" (cheaper {cheaper[0].label} is excluded by its failed checks)"
+        needs = "; ".join(f"{c.label} needs {', '.join(f.need for f in c.failures)}"
+                          for c in candidates)
+        return f"No candidate passes its own checks: {needs}."
+    best = min(clean, key=lambda c: (c.lifetime_cost, c.label))
+    why = (f"lowest {years}-year cost of ownership ({best.lifetime_cost:,.0f} {currency}) "
+           "among the candidates that pass their own checks")
+    cheaper = sorted((c for c in candidates if c.failures
+                      and c.lifetime_cost < best.lifetime_cost),
+                     key=lambda c: (c.lifetime_cost, c.label))
+    if cheaper:
+        why += "; cheaper " + "; ".join(_why_out(c) for c in cheaper)
     iso = ("isolated" if best.design.is_isolated else "NOT isolated: enclose it fully"
            if best.design.is_isolated is False else "isolation not known: check it")
     return f"Choose {best.label} ({best.design.name}): {why}; {iso}."
@@ -244,7 +349,7 @@ def comparison_table(cmp: Comparison) -> pd.DataFrame:
     for c in cmp.candidates:
         d = c.design
         by = {r.state: r for r in c.unit.states}
-        light = by[lightest_state(d)]
+        light = by[d.standby_state or lightest_state(d)]
         heavy = by[max(d.states, key=d.load_rank)]
         rated = by[rated_state(d)]
         rows.append({
@@ -270,6 +375,7 @@ def comparison_table(cmp: Comparison) -> pd.DataFrame:
             "purchase_cost": c.purchase_cost,
             "lifetime_cost": c.lifetime_cost,
             "failed_checks": len(c.failures),
+            "collapsed": c.collapsed,
             "driver": c.driver,
         })
     return pd.DataFrame(rows)

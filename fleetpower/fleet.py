@@ -57,6 +57,42 @@ def unit_catalogue(designs: dict[Path, Design], progress=None) -> dict[Path, dic
     return out
 
 
+def regulation_failures(spec: FleetSpec, catalogue: dict) -> list[dict]:
+    """A design that cannot power its load in a state some group uses: one failure each.
+
+    The largest load the design holds in regulation is searched only for designs that
+    fail (:func:`fleetpower.unit.max_deliverable_current_a`, whose solves are cached).
+    """
+    from .unit import max_deliverable_current_a
+
+    out = []
+    for path, d in spec.designs.items():
+        used: dict[str, list[str]] = {}
+        for g in spec.groups:
+            if g.design_path != path:
+                continue
+            for k, s in enumerate(g.states):
+                if g.occupancy[:, k].any() or (g.peak_occupancy is not None
+                                               and g.peak_occupancy[k] > 0):
+                    used.setdefault(s, []).append(g.name)
+        for s, names in used.items():
+            res = catalogue[path][s]
+            if res.in_regulation:
+                continue
+            held = max_deliverable_current_a(d)
+            if d.states[s][0] == "power":
+                amounts = (f"{held * d.output.voltage:.2f} W",
+                           f"{res.load_a * d.output.voltage:.2f} W")
+            else:
+                amounts = (f"{held * 1e3:.1f} mA", f"{res.load_a * 1e3:.1f} mA")
+            text = (f"design '{d.name}' (group {', '.join(repr(n) for n in names)}) cannot "
+                    f"power its load in state '{s}': holds {amounts[0]} of {amounts[1]}")
+            out.append({"check": f"regulation {path.name} {s}", "text": text,
+                        "need": f"'{d.name}' to hold {amounts[1]} in state '{s}'",
+                        "design": d.name, "state": s, "groups": names})
+    return out
+
+
 # ----------------------------------------------------------------------------------
 # evaluation
 # ----------------------------------------------------------------------------------
@@ -118,6 +154,9 @@ class FleetResult:
     #: design-states whose figures are not simulated (measured gadgets): design, state,
     #: basis (file, window, voltage-scaling model used on this site)
     measured: list[dict] = field(default_factory=list)
+    #: failed checks of the fleet's own: a design that cannot power its load in a state a
+    #: group uses (dicts: check, text, need, design, state, groups)
+    failures: list[dict] = field(default_factory=list)
 
     @property
     def total_cost_per_year(self) -> float:
@@ -403,6 +442,8 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
             warnings.append(f"design '{d.name}' is specified for {nominal.voltage:.0f} V "
                             f"{nominal.frequency:.0f} Hz but simulated on this site's "
                             f"{site.v_ln_v:.0f} V {site.f_hz:.0f} Hz")
+    failures = regulation_failures(spec, cat)
+    warnings += [f["text"] for f in failures]
     return FleetResult(
         spec=spec, summation_label=label, units=sum(g.count for g in spec.groups),
         peak_hour=peak_label, peak_coincident=coincident, phases=figs, neutral_i_rms_a=neutral.i_rms_a,
@@ -413,7 +454,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         energy_cost=energy_cost, demand_cost=demand_cost, reactive_cost=reactive_cost,
         co2_kg_per_year=co2, i_l_a=i_l, i_l_source=i_l_src, tdd_pct=tdd,
         compliance=compliance, conductors=conductors, groups=pd.DataFrame(rows),
-        warnings=warnings, pf_basis=pf_basis, pf_arith=totals.pf_arith,
+        warnings=warnings, failures=failures, pf_basis=pf_basis, pf_arith=totals.pf_arith,
         peak_case=case_labels[peak], worst_phase=worst, neutral_max=neutral_max,
         assumptions=_assumptions(spec, bool(hours_groups)), measured=measured,
     )

@@ -29,7 +29,7 @@ from fleetpower.report import (
 
 EX = examples_dir()
 FLEET = EX / "harbour-office.toml"
-A = EX / "desk-sensor-dropper-lean.toml"
+A = EX / "sensor-dropper-230.toml"  # holds its load: a payback baseline (the lean one collapses)
 B = EX / "desk-sensor-smps-230.toml"
 
 

@@ -5,7 +5,7 @@ Owns: the Markdown layout. May import ``report.model`` only; it computes nothing
 
 from __future__ import annotations
 
-from .model import COMPARE_ROWS, compare_cell
+from .model import COMPARE_ROWS, collapse_notes, marked_cell
 
 
 def compare_markdown(d: dict) -> str:
@@ -22,11 +22,15 @@ def compare_markdown(d: dict) -> str:
         if key is None:
             lines.append(f"| **{label}** |" + " |" * len(d["designs"]))
             continue
-        lines.append(f"| {label} | " + " | ".join(compare_cell(x, key, digits, unit, cur)
+        lines.append(f"| {label} | " + " | ".join(marked_cell(x, key, digits, unit, cur)
                                                  for x in d["designs"]) + " |")
     lines.append("| safety | " + " | ".join(x["safety"] for x in d["designs"]) + " |")
     lines.append("| failed checks | " + " | ".join(
         (", ".join(x["failures"]) or "none") for x in d["designs"]) + " |")
+    lines += [""] + collapse_notes(d)
+    if d.get("shared_failures"):
+        lines += ["", "Every candidate (groups they do not replace) fails: "
+                  + "; ".join(d["shared_failures"]) + " - not counted against any candidate."]
     lines += ["", "## Recommendation", "", d["recommendation"], ""]
     if d.get("basis"):
         lines += [f"Designs enter as: {d['basis']}.", ""]

@@ -215,6 +215,7 @@ def fleet_to_dict(r) -> dict:
         "groups": r.groups.to_dict("records"),
         "hourly": r.hourly.to_dict("records"),
         "warnings": list(r.warnings),
+        "failures": list(r.failures),
     }
     if r.measured:
         out["measured"] = list(r.measured)
@@ -260,7 +261,9 @@ def compare_to_dict(cmp) -> dict:
         d["letter"] = chr(ord("A") + len(designs))
         d["file"] = str(c.path)
         d["safety"] = safety_label(c.design.is_isolated)
-        d["failures"] = c.failures
+        d["failures"] = [f.text for f in c.failures]
+        d["needs"] = [f.need for f in c.failures]
+        d["collapsed_states"] = c.collapsed_states
         d["unit_compliance"] = c.unit_compliance
         d["fleet_compliance"] = c.fleet.compliance
         d["conductors"] = c.fleet.conductors
@@ -280,6 +283,8 @@ def compare_to_dict(cmp) -> dict:
         "energy_escalation": cmp.escalation,
         "designs": designs,
         "paybacks": cmp.paybacks,
+        "payback_baseline": cmp.baseline,
+        "shared_failures": [f.text for f in cmp.shared_failures],
         "recommendation": cmp.recommendation,
         **({"basis": cmp.basis} if getattr(cmp, "basis", None) else {}),
         "caution": _compare_caution([c.design.is_isolated for c in cmp.candidates]),
@@ -312,5 +317,25 @@ def compare_cell(d: dict, key: str, digits: int, unit: str, currency: str) -> st
     return fmt(v, digits, unit)
 
 
+#: figures marked on a candidate that cannot power its load (those of a collapsed supply)
+COLLAPSE_MARKED = ("e_kwh_per_year", "running_cost_per_year", "co2_kg_per_year",
+                   "lifetime_cost")
+COLLAPSE_NOTE = ("* {who}: cannot power its load ({states}); its energy and cost are those "
+                 "of a supply that has collapsed, not of one doing its job.")
+
+
+def marked_cell(d: dict, key: str, digits: int, unit: str, currency: str) -> str:
+    """:func:`compare_cell`, with `` *`` on the energy and cost of a collapsed supply."""
+    text = compare_cell(d, key, digits, unit, currency)
+    return text + " *" if d.get("collapsed") and key in COLLAPSE_MARKED else text
+
+
+def collapse_notes(d: dict) -> list[str]:
+    """One footnote per collapsed candidate of a comparison report dict."""
+    return [COLLAPSE_NOTE.format(who=f"{x['letter']} ({x['design']})",
+                                 states=", ".join(f"state '{s}'" for s in x["collapsed_states"]))
+            for x in d["designs"] if x.get("collapsed")]
+
+
 __all__ = ["state_to_dict", "unit_to_dict", "fleet_to_dict", "compare_to_dict", "fmt",
-           "COMPARE_ROWS", "compare_cell"]
+           "COMPARE_ROWS", "compare_cell", "marked_cell", "collapse_notes"]

@@ -16,7 +16,7 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
-from .model import COMPARE_ROWS, compare_cell, fmt, safety_label
+from .model import COMPARE_ROWS, collapse_notes, fmt, marked_cell, safety_label
 
 VERDICT_MARK = {
     "pass": "PASS",
@@ -333,16 +333,23 @@ def render_compare(d: dict, console: Console) -> None:
         if key is None:
             t.add_row(Text(label, style="bold underline"), *[""] * len(d["designs"]))
             continue
-        t.add_row(label, *[compare_cell(x, key, digits, unit, cur) for x in d["designs"]])
+        t.add_row(label, *[marked_cell(x, key, digits, unit, cur) for x in d["designs"]])
     t.add_row("failed checks", *[str(x["failed_checks"]) for x in d["designs"]])
-    t.add_row("verdict", *[Text("FAILS" if x["failed_checks"] else "passes",
+    t.add_row("verdict", *[Text("COLLAPSES" if x.get("collapsed") else
+                                "FAILS" if x["failed_checks"] else "passes",
                                 style="bold red" if x["failed_checks"] else "green")
                            for x in d["designs"]])
     console.print(t)
+    for note in collapse_notes(d):
+        console.print(Text(note, style="bold red"))
     for x in d["designs"]:
         if x["failures"]:
             console.print(Text(f"{x['letter']} fails: " + "; ".join(x["failures"]),
                                style="red"))
+    if d.get("shared_failures"):
+        console.print(Text("Every candidate (groups they do not replace) fails: "
+                           + "; ".join(d["shared_failures"])
+                           + " - not counted against any candidate", style="yellow"))
     console.print(Text("What drives the difference (largest loss in standby):", style="bold"))
     for x in d["designs"]:
         console.print(Text(f"  {x['letter']}: {x['driver']}"))
