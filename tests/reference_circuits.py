@@ -758,6 +758,7 @@ def _transformer_table(key: str) -> dict:
         table["name"] = "reference: 1.5 VA transformer, half-wave"
         table["parts"]["rectifier"] = "half-wave"
         table["states"] = {"active": table["states"]["active"]}
+        table.pop("standby_state", None)  # its one state is not a standby
     return table
 
 
