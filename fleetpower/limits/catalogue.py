@@ -14,6 +14,9 @@ from pathlib import Path
 from .._resources import data_dir
 from ..errors import FleetpowerError
 
+#: the scope table (products, market and mains of each set) beside the limit tables; it
+#: is not a limit table (read by tables.load_scopes)
+SCOPE_FILE = "scope.csv"
 #: defaults of the summary's optional columns (as in tables.OPTIONAL_COLUMNS)
 _DEFAULTS = {"title": "", "edition": "", "clause": "", "provenance": "user file"}
 
@@ -24,7 +27,7 @@ def set_summaries(folder: Path | None = None) -> list[dict]:
     Sets are sorted by id; clauses are joined with "; " in the order they first appear.
     """
     folder = folder or data_dir() / "limits"
-    files = sorted(folder.glob("*.csv"))
+    files = sorted(f for f in folder.glob("*.csv") if f.name != SCOPE_FILE)
     if not files:
         raise FleetpowerError(f"no limit tables found in {folder}: the installation is "
                               "incomplete (reinstall fleetpower)")

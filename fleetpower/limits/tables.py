@@ -33,6 +33,7 @@ import pandas as pd
 
 from .._resources import data_dir
 from ..errors import FleetpowerError, InputError, suggest
+from .catalogue import SCOPE_FILE
 
 #: Columns a limit file must have.
 REQUIRED_COLUMNS: tuple[str, ...] = ("set", "quantity", "limit", "unit", "kind")
@@ -343,8 +344,6 @@ def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> pd.Dat
     return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=COLUMNS)
 
 
-#: The scope table (products, market and mains of each shipped set); not a limit table.
-SCOPE_FILE = "scope.csv"
 #: Its columns: which products and mains a set covers, and where that comes from.
 SCOPE_COLUMNS: tuple[str, ...] = (
     "set", "products", "market", "v_ln_min_v", "v_ln_max_v", "frequency_hz",
