@@ -76,7 +76,8 @@ def regulation_failures(spec: FleetSpec, catalogue: dict) -> list[dict]:
                     used.setdefault(s, []).append(g.name)
         for s, names in used.items():
             res = catalogue[path][s]
-            if getattr(res, "in_regulation", True):  # a hand-made catalogue may omit it
+            # held, or not known (a measured gadget, a hand-made catalogue)
+            if getattr(res, "in_regulation", None) is not False:
                 continue
             held = max_deliverable_current_a(d)
             if d.states[s][0] == "power":

@@ -167,7 +167,7 @@ def analyse_unit(design: Design, states: list[str] | None = None,
                 )
         hand = hand_estimate(design, max_a) if max_a is not None else None
     else:
-        if any(not r.in_regulation for r in nominal):
+        if any(r.in_regulation is False for r in nominal):
             max_a = max_deliverable_current_a(design)
         for r in nominal:
             if r.in_regulation is False:

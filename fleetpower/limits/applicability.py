@@ -193,6 +193,8 @@ def regulation_rows(design: Design, analysis: UnitAnalysis) -> list[dict]:
     Linear regulator dropout: the input must stay at least V_out + V_dropout (regulator
     datasheet definition; common practice, no source).
     """
+    if all(r.in_regulation is None for r in analysis.states):
+        return []
     if design.has_linear_regulator:
         need = design.output.voltage + design.output.dropout
         what = "output + dropout"
@@ -201,6 +203,8 @@ def regulation_rows(design: Design, analysis: UnitAnalysis) -> list[dict]:
         what = "the converter's undervoltage lockout"
     rows = []
     for r in analysis.states:
+        if r.in_regulation is None:  # not known (a measured gadget): no verdict
+            continue
         used, head, verdict = L.margin(r.v_dc_min_v, need, "min")
         if r.in_regulation:
             verdict = "pass"
