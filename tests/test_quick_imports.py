@@ -1,0 +1,42 @@
+"""What a quick command imports: heavy libraries stay out of the paths that do not need
+them (a structural check, not a timing: benchmarks/bench_cli_speed.py times them).
+
+Source: the project's own speed targets (README, Performance); which libraries are heavy
+was measured with ``python -X importtime`` (pint with its registry ~1 s, pandas ~0.45 s,
+scipy.special ~0.25 s, dask ~0.1 s on the development machine).
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+REPO = Path(__file__).resolve().parent.parent
+
+
+def _imported_after(code: str, watch: tuple[str, ...]) -> list[str]:
+    probe = f"import sys\n{code}\nprint(' '.join(m for m in {watch!r} if m in sys.modules))"
+    out = subprocess.run([sys.executable, "-c", probe], cwd=REPO, capture_output=True,
+                         text=True, check=True)
+    return out.stdout.split()
+
+
+def test_unit_path_leaves_out_pint_dask_scipy_special_matplotlib():
+    code = (
+        "from fleetpower.io.design_file import load_design\n"
+        "import fleetpower.unit, fleetpower.report, fleetpower.cli\n"
+        "load_design('examples/nightlight-dropper.toml')\n"
+    )
+    assert _imported_after(code, ("pint", "dask", "scipy.special", "matplotlib")) == []
+
+
+def test_limit_listing_leaves_out_pandas_and_numba():
+    code = ("import fleetpower.cli\n"
+            "from fleetpower.limits.catalogue import set_summaries\nset_summaries()\n")
+    assert _imported_after(code, ("pandas", "numba", "pint")) == []
+
+
+def test_help_leaves_out_the_engine():
+    code = "import fleetpower.cli\nfleetpower.cli.build_parser().format_help()\n"
+    assert _imported_after(code, ("pandas", "numba", "pint", "pydantic")) == []
