@@ -109,6 +109,8 @@ class StateResult:
     v_cap_rms_v: float | None = None
     in_regulation: bool | None = None
     iterations: int = 0
+    #: circuit residual evaluations the engine spent on this case (its cost measure)
+    residual_evaluations: int = 0
     #: engine unknowns at the start of the settled cycle (v_c1 [V], v_o [V], v_a [V],
     #: i_s [A]): a warm start for variants of this case (spread samples)
     x_start: tuple[float, ...] = ()
@@ -198,6 +200,7 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
                 v_cap_rms_v=v_cap_rms,
                 in_regulation=ok,
                 iterations=int(sol.iterations[b]),
+                residual_evaluations=int(sol.residual_evaluations[b]),
                 x_start=tuple(float(x) for x in sol.states[b, 0]),
             )
         )
@@ -253,11 +256,14 @@ class Batch:
     x0: np.ndarray  # (n, N_STATES)
     samples_per_cycle: int
     labels: list[str]
+    #: steps per cycle of the engine's coarse first solve (None: its default; 0: none)
+    coarse_start: int | None = None
 
 
 def solve_batch(batch: Batch) -> SteadyState:
     """Solve one batch of engine rows (the function executors run)."""
-    return solve_periodic(batch.params, batch.x0, batch.samples_per_cycle, batch.labels)
+    return solve_periodic(batch.params, batch.x0, batch.samples_per_cycle, batch.labels,
+                          coarse_start=batch.coarse_start)
 
 
 def circuit_rows(design: Design, state: str, mains_factor: float = 1.0,
@@ -281,6 +287,7 @@ def run(
     cache: ResultCache | None = CACHE,
     executor=local_executor,
     initial: list[tuple[float, ...] | None] | None = None,
+    coarse_start: int | None = None,
 ) -> list[StateResult]:
     """Solve cases (of any number of designs) in one batch; results in the order of cases.
 
@@ -289,8 +296,15 @@ def run(
     case, a starting guess of the engine unknowns in place of the topology's (a near
     solution's :attr:`StateResult.x_start`: the shooting iteration then needs a couple of
     cycles instead of about ten); the result does not depend on it beyond the solver's
-    periodicity tolerance.
+    periodicity tolerance (and the engine's coarse first solve is then skipped).
+    ``samples_per_cycle`` is the accuracy setting (steps per mains cycle; the default is
+    chosen by measurement, DEVELOPERS.md "Accuracy per cost"). ``coarse_start`` sets the
+    steps of the engine's coarse first solve (None: the engine's default, or none when
+    ``initial`` is given; 0: none); it changes the cost, not the result (beyond the
+    periodicity tolerance), so it is not part of the cache key.
     """
+    if coarse_start is None and initial is not None:
+        coarse_start = 0
     keys = [case_key(c, samples_per_cycle) for c in cases]
     out: list[StateResult | None] = [None] * len(cases)
     todo: dict[tuple, list[int]] = {}
@@ -318,7 +332,7 @@ def run(
         labels = [f"{cases[k].design.name} / {cases[k].state} at "
                   f"{cases[k].mains_factor:.2f}x mains" for k in first]
         (sol,) = executor(solve_batch, [Batch(np.array(rows), np.array(x0s),
-                                              samples_per_cycle, labels)])
+                                              samples_per_cycle, labels, coarse_start)])
         solved = _state_results([cases[k] for k in first], sol)
         if cache is not None:
             cache.solves += len(first)

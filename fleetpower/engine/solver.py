@@ -65,8 +65,19 @@ from .layout import (
     S_VO,
 )
 
-#: samples (= integration steps) per mains cycle; >= 2048 for a coherent FFT to h = 50
+#: the accuracy setting: samples (= integration steps) per mains cycle. Chosen by
+#: measurement against the independent reference (benchmarks/bench_accuracy.py,
+#: DEVELOPERS.md "Accuracy per cost"): the smallest power of two whose worst error stays
+#: under 1 % of every reference tolerance (0.67 %; 1024 steps use 2.7 %, 512 8.5 %)
 DEFAULT_SAMPLES_PER_CYCLE = 2048
+#: steps per cycle of the coarse solve that starts the real one (0: none); measured in
+#: benchmarks/bench_accuracy.py, chosen in DEVELOPERS.md "Accuracy per cost"
+DEFAULT_COARSE_START = 96
+#: periodicity tolerance of that coarse solve: its fixed point is only a start, within
+#: the coarse grid's own discretisation error (~1e-3) of the fine one anyway
+COARSE_RTOL = 1e-6
+#: and of its time steps' Newton iterations
+COARSE_NEWTON_RTOL = 1e-5
 #: relative tolerance of the periodicity condition |x(T) - x(0)| / scale
 PERIODIC_RTOL = 1e-9
 MAX_SHOOTING_ITERATIONS = 80
@@ -75,7 +86,15 @@ MAX_NEWTON_ITERATIONS = 40
 WATCHDOG_STEPS = 3
 WATCHDOG_OFF = -(10**6)  # after a watchdog restart: monotone search until progress
 #: Newton step size, relative to the unknown's scale, below which a time step is accepted
-NEWTON_RTOL = 1e-7
+#: (the accepted point's own error is then O(step^2), ~1e-12 of the scale); the quadratic
+#: predictor's O(h^3) error is below it at the default step, so most steps need one
+#: iteration
+NEWTON_RTOL = 1e-6
+
+#: columns of the per-variant ``info`` row of :func:`_shoot`
+N_INFO = 5
+INFO_RESIDUALS = 3
+INFO_JACOBIANS = 4
 
 STATUS_OK = 0
 STATUS_STEP_FAILED = 1
@@ -155,8 +174,11 @@ def jacobian_fd(x, t, p, f0, jac, scale):
 
 
 @njit(cache=True)
-def _consistent(x, t, p, m, scale):
-    """Solve the algebraic rows at time ``t`` for fixed differential unknowns."""
+def _consistent(x, t, p, m, scale, info):
+    """Solve the algebraic rows at time ``t`` for fixed differential unknowns.
+
+    Counts its residual and Jacobian evaluations in ``info`` (see :func:`_shoot`).
+    """
     n = N_STATES
     f = np.empty(n)
     jac = np.empty((n, n))
@@ -165,6 +187,8 @@ def _consistent(x, t, p, m, scale):
     for _ in range(4 * MAX_NEWTON_ITERATIONS):
         residual(x, t, p, f)
         _jacobian(x, t, p, f, jac, scale)
+        info[INFO_RESIDUALS] += 1
+        info[INFO_JACOBIANS] += 1
         for i in range(n):
             for j in range(n):
                 a[i, j] = jac[i, j]
@@ -193,11 +217,12 @@ def _consistent(x, t, p, m, scale):
 
 
 @njit(cache=True)
-def _one_cycle(p, x0, n_steps, m, scale, xs, sens):
+def _one_cycle(p, x0, n_steps, m, scale, xs, sens, info, newton_rtol):
     """Integrate one period from ``x0``; store states in ``xs`` (n_steps+1, n).
 
     ``sens`` (n, n) receives d x(T) / d x0 along the differential directions (columns of
-    algebraic unknowns are zero). Returns a status code.
+    algebraic unknowns are zero). Returns a status code. Residual and Jacobian
+    evaluations are counted in ``info`` (see :func:`_shoot`).
     """
     n = N_STATES
     period = 2.0 * math.pi / p[P_OMEGA]
@@ -217,6 +242,8 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens):
     # rows are the unit vector e_j, the algebraic rows follow from J_aa ds_a = -J_ad e_j.
     residual(x, 0.0, p, f_old)
     _jacobian(x, 0.0, p, f_old, jac_old, scale)
+    info[INFO_RESIDUALS] += 1
+    info[INFO_JACOBIANS] += 1
     for i in range(n):
         for j in range(n):
             if m[i] > 0.0:
@@ -234,16 +261,26 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens):
     for i in range(n):
         xs[0, i] = x[i]
     x_prev = x.copy()
+    x_prev2 = x.copy()
     xn = np.empty(n)
     for k in range(n_steps):
         t1 = (k + 1) * h
-        # predictor: linear extrapolation
+        # predictor: the quadratic through the last three points (linear at the second
+        # step, constant at the first); its error O(h^3) is below the Newton tolerance at
+        # a fine step, so most steps take one Newton iteration
         for i in range(n):
-            xn[i] = 2.0 * x[i] - x_prev[i] if k > 0 else x[i]
+            if k > 1:
+                xn[i] = 3.0 * x[i] - 3.0 * x_prev[i] + x_prev2[i]
+            elif k == 1:
+                xn[i] = 2.0 * x[i] - x_prev[i]
+            else:
+                xn[i] = x[i]
         ok = False
         for _ in range(MAX_NEWTON_ITERATIONS):
             residual(xn, t1, p, f_new)
             _jacobian(xn, t1, p, f_new, jac_new, scale)
+            info[INFO_RESIDUALS] += 1
+            info[INFO_JACOBIANS] += 1
             for i in range(n):
                 if m[i] > 0.0:
                     b[i, 0] = -(m[i] * (xn[i] - x[i]) - 0.5 * h * (f_new[i] + f_old[i]))
@@ -261,17 +298,22 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens):
                 xn[i] += b[i, 0]
                 if not math.isfinite(xn[i]):
                     return STATUS_NAN
-                if abs(b[i, 0]) > NEWTON_RTOL * scale[i]:
+                if abs(b[i, 0]) > newton_rtol * scale[i]:
                     done = False
             if done:
                 ok = True
                 break
         if not ok:
             return STATUS_STEP_FAILED
-        # Newton's error after the last update is O(|dx|^2), far below the tolerance;
-        # the Jacobian of the last iterate serves the sensitivity (it only steers the
-        # shooting iteration, never the accepted waveform).
-        residual(xn, t1, p, f_new)
+        # the residual at the accepted point from its linear model f + J dx (error
+        # O(|dx|^2), dx below the Newton tolerance: far below it) instead of one more
+        # evaluation; the Jacobian of the last iterate serves the sensitivity (it only
+        # steers the shooting iteration, never the accepted waveform).
+        for i in range(n):
+            acc = f_new[i]
+            for j in range(n):
+                acc += jac_new[i, j] * b[j, 0]
+            f_new[i] = acc
         # sensitivity: A_new s_{k+1} = -B_old s_k
         for i in range(n):
             if m[i] > 0.0:
@@ -295,6 +337,7 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens):
             for c in range(n):
                 s[i, c] = rhs[i, c]
         for i in range(n):
+            x_prev2[i] = x_prev[i]
             x_prev[i] = x[i]
             x[i] = xn[i]
             xs[k + 1, i] = x[i]
@@ -317,9 +360,9 @@ def _periodic_norm(x0, x1, idx, nd, scale):
 
 
 @njit(cache=True)
-def _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end):
+def _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info, newton_rtol):
     """One cycle from ``x``; returns (status, periodicity norm) and fills ``x_end``."""
-    status = _one_cycle(p, x, n_steps, m, scale, xs, sens)
+    status = _one_cycle(p, x, n_steps, m, scale, xs, sens, info, newton_rtol)
     if status != STATUS_OK:
         return status, np.inf
     for i in range(x.shape[0]):
@@ -328,12 +371,16 @@ def _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end):
 
 
 @njit(cache=True)
-def _shoot(p, x0, n_steps, xs, out_probe, info):
+def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
     """Periodic steady state of one variant. Fills ``xs``, ``out_probe`` and ``info``.
 
-    ``info`` = [status, shooting iterations, periodicity residual (relative)].
+    ``info`` = [status, shooting iterations, periodicity residual (relative), residual
+    evaluations, Jacobian evaluations] (the last two counted, the cost measure of
+    ``benchmarks/bench_accuracy.py``).
     """
     n = N_STATES
+    rtol = tols[0]  # periodicity
+    newton_rtol = tols[1]  # each time step's Newton iteration
     m = np.empty(n)
     mass_vector(p, m)
     vpk = p[P_VPK]
@@ -347,7 +394,9 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
     info[0] = STATUS_NOT_PERIODIC
     info[1] = 0
     info[2] = np.inf
-    if not _consistent(x, 0.0, p, m, scale):
+    info[INFO_RESIDUALS] = 0
+    info[INFO_JACOBIANS] = 0
+    if not _consistent(x, 0.0, p, m, scale, info):
         info[0] = STATUS_STEP_FAILED
         return
     sens = np.empty((n, n))
@@ -369,9 +418,10 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
     vo_max = p[P_VO_MAX]
 
     x_end = np.empty(n)  # x(T) of the accepted iterate x
-    status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end)
+    status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
+                                  newton_rtol)
     cycles += 1
-    while status == STATUS_OK and norm >= PERIODIC_RTOL and cycles < MAX_SHOOTING_ITERATIONS:
+    while status == STATUS_OK and norm >= rtol and cycles < MAX_SHOOTING_ITERATIONS:
         info[2] = norm
         # Newton direction on Phi(x) - x = 0; every path below ends by integrating the
         # accepted x, so xs, sens and x_end belong to it here
@@ -398,7 +448,8 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
         if watch >= WATCHDOG_STEPS:
             for i in range(n):
                 x[i] = x_best[i]
-            status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end)
+            status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
+                                  newton_rtol)
             cycles += 1
             watch = WATCHDOG_OFF
             continue
@@ -413,9 +464,10 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
             xt[S_VO] = min(max(xt[S_VO], 0.0), vo_max)
             xt[S_VC1] = min(max(xt[S_VC1], -1.2 * vpk), 1.2 * vpk)
             lam *= 0.5
-            if not _consistent(xt, 0.0, p, m, scale):
+            if not _consistent(xt, 0.0, p, m, scale, info):
                 continue
-            st, trial = _integrate(p, xt, n_steps, m, scale, xs, sens, idx, nd, xt_end)
+            st, trial = _integrate(p, xt, n_steps, m, scale, xs, sens, idx, nd, xt_end, info,
+                                   newton_rtol)
             cycles += 1
             if st != STATUS_OK:
                 continue
@@ -441,17 +493,18 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
             # transient, which always makes progress towards a stable steady state)
             for r in range(nd):
                 x[idx[r]] = x_end[idx[r]]
-            if not _consistent(x, 0.0, p, m, scale):
+            if not _consistent(x, 0.0, p, m, scale, info):
                 status = STATUS_STEP_FAILED
                 break
-            status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end)
+            status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
+                                  newton_rtol)
             cycles += 1
     info[1] = cycles
     info[2] = norm
     if status != STATUS_OK:
         info[0] = status
         return
-    if norm >= PERIODIC_RTOL:
+    if norm >= rtol:
         return  # STATUS_NOT_PERIODIC
     info[0] = STATUS_OK
     # xs holds the accepted iterate's cycle: the loop ends right after integrating x
@@ -468,9 +521,9 @@ def _shoot(p, x0, n_steps, xs, out_probe, info):
 
 
 @njit(cache=True, parallel=True)
-def _shoot_batch(params, x0, n_steps, xs, out_probe, info):
+def _shoot_batch(params, x0, n_steps, xs, out_probe, info, tols):
     for b in prange(params.shape[0]):
-        _shoot(params[b], x0[b], n_steps, xs[b], out_probe[b], info[b])
+        _shoot(params[b], x0[b], n_steps, xs[b], out_probe[b], info[b], tols)
 
 
 @dataclass(frozen=True)
@@ -492,6 +545,10 @@ class SteadyState:
         max |x(T) - x(0)| / scale at the accepted cycle [-].
     converged : ndarray of bool, shape (batch,)
         Whether each variant reached its periodic steady state.
+    residual_evaluations : ndarray of int, shape (batch,)
+        Evaluations of the circuit residual f(x, t) spent on each variant (the engine's
+        cost measure: every Newton iteration of every time step evaluates it once, plus
+        the Jacobian once).
     """
 
     t_s: np.ndarray
@@ -500,11 +557,32 @@ class SteadyState:
     iterations: np.ndarray
     periodic_residual: np.ndarray
     converged: np.ndarray
+    residual_evaluations: np.ndarray
 
     def probe(self, name: str) -> np.ndarray:
         """Samples of the probe ``name`` (one of :data:`~fleetpower.engine.layout.PROBES`),
         shape (batch, n)."""
         return self.probes[..., PROBES.index(name)]
+
+
+def _run_batch(params: np.ndarray, x0: np.ndarray, n: int, rtol: float = PERIODIC_RTOL,
+               newton_rtol: float = NEWTON_RTOL):
+    """Shoot every row at ``n`` steps per cycle: (states, probes, info) arrays."""
+    tols = np.array([rtol, newton_rtol])
+    batch = params.shape[0]
+    xs = np.empty((batch, n + 1, N_STATES))
+    pr = np.empty((batch, n, N_PROBES))
+    info = np.zeros((batch, N_INFO))
+    if batch == 1:  # one row: no worker threads to wake and spin (2x on a busy machine)
+        threads = numba.get_num_threads()
+        numba.set_num_threads(1)
+        try:
+            _shoot_batch(params, x0, n, xs, pr, info, tols)
+        finally:
+            numba.set_num_threads(threads)
+    else:
+        _shoot_batch(params, x0, n, xs, pr, info, tols)
+    return xs, pr, info
 
 
 def solve_periodic(
@@ -513,6 +591,7 @@ def solve_periodic(
     samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,
     labels: list[str] | None = None,
     raise_on_failure: bool = True,
+    coarse_start: int | None = None,
 ) -> SteadyState:
     """Solve a batch of circuit variants to periodic steady state.
 
@@ -523,11 +602,17 @@ def solve_periodic(
     x0 : ndarray, shape (batch, 4)
         Initial guess of the unknowns at t = 0 (algebraic ones are made consistent).
     samples_per_cycle : int
-        Steps per mains period (>= 2048 recommended).
+        Samples per mains period of the result (even; the integration steps are these,
+        plus half as many again when extrapolating). See :data:`DEFAULT_SAMPLES_PER_CYCLE`.
     labels : list of str, optional
         Names of the variants, for error messages.
     raise_on_failure : bool
         If False, failed variants are reported in ``SteadyState.converged`` instead.
+    coarse_start : int, optional
+        Steps per cycle of a cheap first solve whose fixed point (to
+        :data:`COARSE_RTOL`) starts the real one (default :data:`DEFAULT_COARSE_START`;
+        0 or >= ``samples_per_cycle``: none). Pass 0 when ``x0`` is already a near
+        solution. See Notes.
 
     Returns
     -------
@@ -544,20 +629,19 @@ def solve_periodic(
         raise ValueError("params must be (batch, N_PARAMS) and x0 (batch, 4)")
     if not np.all(np.isfinite(params)):
         raise SolverError("a circuit parameter is NaN or infinite")
-    batch = params.shape[0]
     n = int(samples_per_cycle)
-    xs = np.empty((batch, n + 1, N_STATES))
-    pr = np.empty((batch, n, N_PROBES))
-    info = np.zeros((batch, 3))
-    if batch == 1:  # one row: no worker threads to wake and spin (2x on a busy machine)
-        threads = numba.get_num_threads()
-        numba.set_num_threads(1)
-        try:
-            _shoot_batch(params, x0, n, xs, pr, info)
-        finally:
-            numba.set_num_threads(threads)
+    nc = DEFAULT_COARSE_START if coarse_start is None else int(coarse_start)
+    if 0 < nc < n:
+        xs_c, _, info_c = _run_batch(params, x0, nc, COARSE_RTOL, COARSE_NEWTON_RTOL)
+        ok = info_c[:, 0] == STATUS_OK
+        # each fine solve starts where its coarse one settled (else where it was asked to)
+        x_warm = np.ascontiguousarray(np.where(ok[:, None], xs_c[:, 0, :], x0))
+        xs, pr, info = _run_batch(params, x_warm, n)
+        info[:, 1] += info_c[:, 1]
+        info[:, INFO_RESIDUALS] += info_c[:, INFO_RESIDUALS]
+        info[:, INFO_JACOBIANS] += info_c[:, INFO_JACOBIANS]
     else:
-        _shoot_batch(params, x0, n, xs, pr, info)
+        xs, pr, info = _run_batch(params, x0, n)
     bad = np.flatnonzero(info[:, 0] != STATUS_OK)
     if bad.size and raise_on_failure:
         b = int(bad[0])
@@ -574,6 +658,7 @@ def solve_periodic(
         iterations=info[:, 1].astype(int),
         periodic_residual=info[:, 2],
         converged=info[:, 0] == STATUS_OK,
+        residual_evaluations=info[:, INFO_RESIDUALS].astype(np.int64),
     )
 
 
@@ -582,7 +667,7 @@ def solve_periodic(
 # ----------------------------------------------------------------------------------
 #: the one signature the batch entry point is called with (see :func:`solve_periodic`)
 _BATCH_SIGNATURE = "(float64[:, ::1], float64[:, ::1], int64, float64[:, :, ::1], " \
-                   "float64[:, :, ::1], float64[:, ::1])"
+                   "float64[:, :, ::1], float64[:, ::1], float64[::1])"
 
 
 def engine_is_compiled() -> bool:

@@ -139,7 +139,9 @@ WARM_START_ABOVE_CYCLES = 4
 
 def _warm_start(design: Design, samples_per_cycle: int) -> tuple[tuple[float, ...], ...]:
     """The nominal solution's unknowns at t = 0 per case of a unit, or () for a cold start."""
-    nominal = sim.run(_sample_cases(design), samples_per_cycle)
+    # decided on the cold start's cycles (the engine's coarse first solve left out: a
+    # warm-started sample skips it, and it would blur the dropper/switch-mode contrast)
+    nominal = sim.run(_sample_cases(design), samples_per_cycle, cache=None, coarse_start=0)
     if max(r.iterations for r in nominal) <= WARM_START_ABOVE_CYCLES:
         return ()
     return tuple(r.x_start for r in nominal)
