@@ -28,7 +28,16 @@ from .installed_base import annual_energy_per_unit_kwh, units_in_service
 from .io.design_file import ConverterOutput, Design
 from .io.market_file import Market
 from .io.product_line_file import ModelSpec, ProductLineSpec, load_product_line
-from .limits.applicability import EPS_LOAD_FRACTIONS, lightest_state, rated_state
+from .limits.applicability import (
+    COUNTED,
+    EPS_LOAD_FRACTIONS,
+    IN_SCOPE,
+    lightest_state,
+    mains_scope,
+    rated_state,
+    required_declaration,
+    rows_in_market,
+)
 from .simulate import Case, run
 from .topologies.base import STRESS_MAINS_FACTOR
 from .unit import UnitAnalysis, analyse_unit
@@ -38,8 +47,6 @@ from .unit import UnitAnalysis, analyse_unit
 SINGLE_RATING_VOLTAGE_TOL = 0.10
 #: and this fraction either side of its rated frequency (common practice, no source)
 SINGLE_RATING_FREQUENCY_TOL = 0.02
-#: verdicts that count as a check (others: out of scope, for information, not applicable)
-COUNTED = ("pass", "fail")
 #: how many pairs each "fix first" list names
 FIX_FIRST_N = 10
 
@@ -142,27 +149,6 @@ def _standby_state(design: Design) -> str | None:
     return getattr(design, "standby_state", None)
 
 
-def _market_rows(rows, market: Market, shipped: set[str]) -> list[dict]:
-    """The unit's compliance rows as they stand in one market.
-
-    A shipped rule that is not one of the market's ``limit_sets`` is out of scope there;
-    every other row (its scope and verdict from the applicability machinery, the output
-    regulation check, a user's set) is kept as it is.
-    """
-    out = []
-    for r in rows:
-        d = dict(r)
-        if d["set"] in shipped and d["set"] not in market.limit_sets and \
-                d["verdict"] in COUNTED:
-            d["verdict"] = "out of scope"
-            d["scope"] = (f"out of scope: not a rule of the {market.market} market "
-                          f"({market.source})")
-            d["used_pct"] = d["headroom"] = None
-        d.setdefault("scope", "in scope")
-        out.append(d)
-    return out
-
-
 def _driver(design: Design, analysis: UnitAnalysis) -> tuple[str, str, float | None, float]:
     """(state, component, its loss [W], input power [W]) of the largest standby loss."""
     state = _standby_state(design) or lightest_state(design)
@@ -196,16 +182,16 @@ def check_standby_declared(spec: ProductLineSpec) -> None:
     InputError
         Naming the product-line file and the model's ``design`` key.
     """
-    try:
-        scopes = L.load_scopes()
-    except AttributeError:  # no scope table: nothing declares what a set requires
-        return
-    needs = set(scopes.loc[scopes["requires"] == "standby_state", "set"])
     for m in spec.models:
         if _standby_state(m.design) is not None:
             continue
         for mid in m.sales:
-            rules = [s for s in spec.markets[mid].limit_sets if s in needs]
+            mk = spec.markets[mid]
+            on = m.design.on_mains(mk.v_ln_v, mk.frequency_hz)
+            # a standby rule applies where the market has it and it covers those mains
+            rules = [s for s in mk.limit_sets
+                     if required_declaration(s) == "standby_state"
+                     and mains_scope(s, on) == IN_SCOPE]
             if rules:
                 raise InputError(spec.file, f"{m.where}.design",
                                  f"design '{m.design.name}' names no standby_state, and the "
@@ -228,7 +214,6 @@ def evaluate_line(spec: ProductLineSpec, progress=None) -> LineResult:
     LineResult
     """
     check_standby_declared(spec)
-    shipped = set(L.list_limit_sets()["set"])
     on_mains: dict[tuple, Design] = {}
     for m in spec.models:
         for mid in m.sales:
@@ -247,23 +232,26 @@ def evaluate_line(spec: ProductLineSpec, progress=None) -> LineResult:
             a = analyses[key]
             if a.caution:
                 cautions[m.name] = a.caution
-            pairs.append(_pair(spec, m, mk, a, sales, years, checks, installed, shipped))
+            pairs.append(_pair(spec, m, mk, a, sales, years, checks, installed))
     return LineResult(spec, pd.DataFrame(pairs), pd.DataFrame(checks),
                       pd.DataFrame(installed), analyses, cautions)
 
 
-def _pair(spec, m: ModelSpec, mk: Market, a: UnitAnalysis, sales, years, checks, installed,
-          shipped) -> dict:
+def _pair(spec, m: ModelSpec, mk: Market, a: UnitAnalysis, sales, years, checks,
+          installed) -> dict:
     d = a.design
     by = {r.state: r for r in a.states}
     p_by_state = np.array([by[s].pq.p_w for s in m.states])
     e_unit = annual_energy_per_unit_kwh(p_by_state, m.occupancy)
     active = rated_state(d)
     standby = _standby_state(d)
-    rows = _market_rows(a.compliance, mk, shipped)
-    counted = [r for r in rows if r["verdict"] in COUNTED and r.get("used_pct") is not None]
+    # the rows of the (design, mains) analysis, scoped to this market's rules: only
+    # in-scope rows pass or fail, and only they decide headroom and the fix-first list
+    rows = rows_in_market(a.compliance, mk.market, mk.limit_sets, str(mk.source))
+    in_scope = [r for r in rows if r["scope"] == IN_SCOPE and r["verdict"] in COUNTED]
+    counted = [r for r in in_scope if r.get("used_pct") is not None]
     worst = max(counted, key=lambda r: r["used_pct"], default=None)
-    failures = [f"{r['set']} {r['quantity']}" for r in rows if r["verdict"] == "fail"]
+    failures = [f"{r['set']} {r['quantity']}" for r in in_scope if r["verdict"] == "fail"]
     collapsed = _collapsed(d, a)
     for r in rows:
         checks.append({"model": m.name, "market": mk.market, **{

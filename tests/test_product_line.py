@@ -19,7 +19,6 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from fleetpower import limits as L
 from fleetpower.io.design_file import load_design
 from fleetpower.product_line import rating_note, run_line
 from fleetpower.simulate import Case, run
@@ -167,8 +166,6 @@ def test_bad_line_input_is_one_line_and_exit_2(cli, folder, old, new, where):
     assert err.count("\n") == 1 and f"{path}: {where}:" in err
 
 
-@pytest.mark.skipif(not hasattr(L, "load_scopes"), reason="needs the limit sets' scope table "
-                    "(which rules require a standby_state)")
 def test_a_model_without_standby_state_where_a_standby_rule_applies(cli, folder):
     path = folder / "lantern-works-line.toml"
     design = folder / "doorbell-transformer-230.toml"
@@ -185,3 +182,26 @@ def test_negative_sales_never_reach_the_arithmetic():
 
     with pytest.raises(ValueError):
         units_in_service(np.array([-1.0]), 2, 2)
+
+
+def test_rows_carry_scope_and_the_market_decides_which_rules_apply(result):
+    # Commission Regulation (EU) 2023/826 Article 1 (scope: the EU market; from memory):
+    # the same 230 V 50 Hz night light is under the EU standby rule in the EU, and not in
+    # India, whose market file lists no standby rule (data/markets.csv, from memory).
+    c = result.checks.set_index(["model", "market", "set"])
+    eu = c.loc[("night light", "EU", "eu-2023-826-standby")]
+    assert eu["scope"] == "in scope" and eu["verdict"] in ("pass", "fail")
+    india = c.loc[("night light", "IN", "eu-2023-826-standby")]
+    assert india["scope"].startswith("out of scope: not a rule of the IN market")
+    assert india["verdict"] == "out of scope" and np.isnan(india["used_pct"])
+    # out-of-scope rows are never a pass or a fail, nor the pair's worst check
+    checks = result.checks
+    assert not checks[(checks["scope"] != "in scope")
+                      & checks["verdict"].isin(["pass", "fail"])].shape[0]
+    in_scope = checks[checks["scope"] == "in scope"]
+    for _, p in result.pairs.iterrows():
+        if p["worst_check"] is None:
+            continue
+        mine = in_scope[(in_scope["model"] == p["model"]) & (in_scope["market"] == p["market"])]
+        assert p["worst_check"] in set(mine["set"] + " " + mine["quantity"])
+        assert p["worst_used_pct"] == pytest.approx(mine["used_pct"].dropna().max())

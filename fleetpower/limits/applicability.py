@@ -100,6 +100,74 @@ def mains_scope(set_id: str, design: Design) -> str:
             f"{v:g} V {f:g} Hz")
 
 
+#: verdicts that count as a check; every other verdict (out of scope, for information,
+#: exempt, not evaluated, not applicable) is neither a pass nor a failure
+COUNTED = ("pass", "fail")
+
+
+def market_scope(set_id: str, market: str, market_sets, source: str = "") -> str:
+    """``"in scope"`` or ``"out of scope: <reason>"`` for a shipped set in one market.
+
+    Parameters
+    ----------
+    set_id : str
+        A shipped limit set (a row of ``data/limits/scope.csv``).
+    market : str
+        The market's id (``data/markets.csv``).
+    market_sets : collection of str
+        The market's ``limit_sets``: the shipped rules that are law or practice there.
+    source : str
+        Where the market was read from (named in the reason).
+
+    Notes
+    -----
+    The scope table says which products and which mains a set covers; a rule's market
+    is a further dimension the mains alone cannot decide (China, India and Australia run
+    the same 230 V 50 Hz as the EU and have not adopted its standby regulation), so the
+    market file's ``limit_sets`` decides it. This is the one place that applies it.
+    """
+    if set_id in set(market_sets):
+        return IN_SCOPE
+    rec = _scope_rec(set_id)
+    where = f" ({source})" if source else ""
+    who = f"; the set is a rule of: {rec['market']}" if rec else ""
+    return f"out of scope: not a rule of the {market} market{where}{who}"
+
+
+def rows_in_market(rows, market: str, market_sets, source: str = "") -> list[dict]:
+    """A unit's compliance rows (on the market's mains) as they stand in that market.
+
+    A shipped set that is not one of the market's rules (:func:`market_scope`) is out of
+    scope there whatever its verdict on the mains alone (its figures, when shown for
+    information, stay for information); every other row — its scope from the products,
+    mains and declarations of :func:`unit_compliance`, the output-regulation check, a
+    user's set — is kept as it is. Only in-scope rows keep ``pass`` or ``fail``.
+    """
+    shipped = set(L.load_scopes()["set"])
+    out = []
+    for r in rows:
+        d = dict(r)
+        d.setdefault("scope", IN_SCOPE)
+        if d["set"] in shipped and d["scope"] == IN_SCOPE:
+            scope = market_scope(d["set"], market, market_sets, source)
+            if scope != IN_SCOPE:
+                d["scope"] = scope
+                if d["verdict"] != "for information":
+                    d["verdict"] = "out of scope"
+                d["used_pct"] = d["headroom"] = None
+        if d["scope"] != IN_SCOPE and d["verdict"] in COUNTED:  # never a pass or fail
+            d["verdict"] = "out of scope"
+            d["used_pct"] = d["headroom"] = None
+        out.append(d)
+    return out
+
+
+def required_declaration(set_id: str) -> str | None:
+    """The design declaration a shipped set needs (``standby_state``, ...) or None."""
+    req = _scope_rec(set_id).get("requires")
+    return req if isinstance(req, str) and req else None
+
+
 def _scoped(row, scope: str = IN_SCOPE, verdict: str | None = None,
             reason: str | None = None) -> dict:
     d = asdict(row) if not isinstance(row, dict) else dict(row)
