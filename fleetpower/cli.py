@@ -13,6 +13,7 @@ from rich.console import Console
 
 from . import __version__
 from .errors import FleetpowerError, InputError, SolverError
+from .report.format import QUANTITY_LABELS, quantity_label, si_text  # noqa: F401 (re-exported)
 
 EXIT_OK = 0
 EXIT_VERDICT = 1  # only with --strict: a check failed
@@ -178,31 +179,8 @@ def cmd_limits(args) -> int:
     return 0
 
 
-#: a person's name for each limited quantity of the shipped tables (the key stays in --json)
-QUANTITY_LABELS = {
-    "avg_active_eff_frac": "average active efficiency",
-    "c_min_f": "capacitance above which it applies",
-    "networked_standby_hina_p_w": "networked standby power (high network availability)",
-    "networked_standby_p_w": "networked standby power",
-    "no_load_p_w": "no-load input power",
-    "off_p_w": "off-mode power",
-    "standby_display_p_w": "standby power with a display",
-    "standby_p_w": "standby power",
-    "t_discharge_s": "time to discharge",
-    "tdd_pct": "total demand distortion",
-    "thd_v_pct": "voltage THD",
-    "v_h_individual_pct": "any single voltage harmonic",
-    "v_threshold_v": "voltage the pins must fall below",
-}
 _KIND_UNITS = {"pct_of_fundamental": "% of I1", "pct_of_fundamental_times_pf": "% of I1 x PF",
                "pct_of_il": "% of I_L", "per_watt": "A/W"}
-
-
-def quantity_label(key: str) -> str:
-    """A person's name for a limited quantity (``i_h3_a`` -> "harmonic current")."""
-    if key.startswith("i_h") and key[3:].split("_")[0].isdigit():
-        return "harmonic current"
-    return QUANTITY_LABELS.get(key, key.replace("_", " "))
 
 
 def _num(v) -> str:
@@ -216,26 +194,6 @@ def _limit_text(r) -> str:
     if r["kind"] in _KIND_UNITS:
         return f"{_num(r['limit'])} {_KIND_UNITS[r['kind']]}"
     return si_text(r["limit"], r["unit"])
-
-
-_SI_PREFIXES = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
-                (1e-9, "n"), (1e-12, "p"))
-
-
-def si_text(value: float, unit: str, digits: int = 3) -> str:
-    """``value`` with an SI prefix and ``digits`` significant figures (1e-07 F -> 100 nF).
-
-    Only SI units take a prefix (V, A, W, VA, var, F, H, Hz, s, J, ohm); others print as
-    they are.
-    """
-    if value != value:
-        return ""
-    if unit not in ("V", "A", "W", "VA", "var", "F", "H", "Hz", "s", "J", "ohm") or value == 0:
-        return f"{value:.{digits}g} {unit}".strip()
-    value = float(f"{value:.{digits}g}")  # round first: 999.9 V -> 1 kV, not 1e+03 V
-    scale, prefix = next(((k, p) for k, p in _SI_PREFIXES if abs(value) >= k * (1 - 1e-12)),
-                         _SI_PREFIXES[-1])
-    return f"{value / scale:.{digits}g} {prefix}{unit}"
 
 
 def _applies_text(r) -> str:

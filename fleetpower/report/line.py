@@ -18,7 +18,8 @@ from rich.table import Table
 from rich.text import Text
 
 from ..product_line import LineResult
-from .model import _clean, fmt
+from .format import fmt, humanize
+from .model import _clean
 
 LINE_CAUTION = ("Non-isolated models (capacitive or resistive droppers) put everything on "
                 "their output at mains potential; enclose them fully and follow local codes "
@@ -141,7 +142,7 @@ def render_line(d: dict, console: Console) -> None:
                                style="yellow"))
     for p in d["pairs"]:
         if p["failures"]:
-            console.print(Text(f"{p['model']} in {p['market']} fails: {p['failures']}",
+            console.print(Text(f"{p['model']} in {p['market']} fails: {humanize(p['failures'])}",
                                style="red"))
     ib = Table(box=box.SIMPLE_HEAD, title="Installed base (all models and markets)",
                title_justify="left", pad_edge=False)
@@ -162,7 +163,7 @@ def render_line(d: dict, console: Console) -> None:
         for col in ("model", "mkt", "worst check", "used", "MWh", "largest standby loss"):
             ft.add_column(col, overflow="fold")
         for x in d["fix_first"][key]:
-            ft.add_row(x["model"], x["market"], x["worst_check"] or "—",
+            ft.add_row(x["model"], x["market"], humanize(x["worst_check"] or "—"),
                        fmt(x["worst_used_pct"], 3, "%"), fmt(x["installed_kwh"] / 1e3, 4),
                        f"{x['driver']} {fmt(x['driver_w'], 2, 'W')} of "
                        f"{fmt(x['driver_of_p_w'], 2, 'W')} ({x['driver_state']})")
@@ -189,11 +190,11 @@ def line_markdown(d: dict) -> str:
             f"| {p['model']} | {p['market']} | {p['v_ln_v']:g} V {p['frequency_hz']:g} Hz | "
             f"{fmt(p['standby_p_w'], 3)} | {fmt(p['active_p_w'], 3)} | "
             f"{fmt(p['active_pf'], 2)} | {fmt(p['energy_per_unit_kwh'], 3)} | "
-            f"{p['worst_check'] or '—'} | {fmt(p['worst_used_pct'], 3)} | "
+            f"{humanize(p['worst_check'] or '—')} | {fmt(p['worst_used_pct'], 3)} | "
             f"{p['failed_checks']} | {p['installed_kwh']:,.0f} |")
     notes = [f"- {p['model']} in {p['market']}: {p['rating_note']}" for p in d["pairs"]
              if p["rating_note"]]
-    fails = [f"- {p['model']} in {p['market']}: {p['failures']}" for p in d["pairs"]
+    fails = [f"- {p['model']} in {p['market']}: {humanize(p['failures'])}" for p in d["pairs"]
              if p["failures"]]
     if notes:
         lines += ["", "## Sold outside the rating", ""] + notes
@@ -208,7 +209,7 @@ def line_markdown(d: dict) -> str:
                        ("most_energy", "Fix first: most installed-base energy")):
         lines += ["", f"## {title}", ""]
         for x in d["fix_first"][key]:
-            lines.append(f"- {x['model']} in {x['market']}: {x['worst_check'] or 'no check'} "
+            lines.append(f"- {x['model']} in {x['market']}: {humanize(x['worst_check'] or 'no check')} "
                          f"at {fmt(x['worst_used_pct'], 3, '%')}; {x['installed_kwh']:,.0f} "
                          f"kWh installed; largest standby loss {x['driver']} "
                          f"{fmt(x['driver_w'], 2, 'W')} of {fmt(x['driver_of_p_w'], 2, 'W')}")

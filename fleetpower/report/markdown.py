@@ -5,6 +5,7 @@ Owns: the Markdown layout. May import ``report.model`` only; it computes nothing
 
 from __future__ import annotations
 
+from .format import humanize
 from .model import COMPARE_ROWS, collapse_notes, marked_cell
 
 
@@ -26,18 +27,19 @@ def compare_markdown(d: dict) -> str:
                                                  for x in d["designs"]) + " |")
     lines.append("| safety | " + " | ".join(x["safety"] for x in d["designs"]) + " |")
     lines.append("| failed checks | " + " | ".join(
-        (", ".join(x["failures"]) or "none") for x in d["designs"]) + " |")
+        (", ".join(humanize(f) for f in x["failures"]) or "none") for x in d["designs"]) + " |")
     lines += [""] + collapse_notes(d)
     if d.get("shared_failures"):
         lines += ["", "Every candidate (groups they do not replace) fails: "
-                  + "; ".join(d["shared_failures"]) + " - not counted against any candidate."]
-    lines += ["", "## Recommendation", "", d["recommendation"], ""]
+                  + "; ".join(humanize(f) for f in d["shared_failures"])
+                  + " - not counted against any candidate."]
+    lines += ["", "## Recommendation", "", humanize(d["recommendation"]), ""]
     if d.get("basis"):
         lines += [f"Designs enter as: {d['basis']}.", ""]
     if d["paybacks"]:
-        lines += ["## Payback", ""] + [f"- {p['reason']}" for p in d["paybacks"]] + [""]
+        lines += ["## Payback", ""] + [f"- {humanize(p['reason'])}" for p in d["paybacks"]] + [""]
     lines += ["## What drives the difference", ""] + \
-        [f"- {x['letter']}: {x['driver']}" for x in d["designs"]] + [""]
+        [f"- {x['letter']}: {humanize(x['driver'])}" for x in d["designs"]] + [""]
     if d.get("caution"):
         lines += ["## Safety", "", d["caution"], ""]
     lines += ["Limit verdicts use tables recorded in fleetpower's data/limits/ (mostly from "

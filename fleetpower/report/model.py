@@ -4,7 +4,7 @@ Every figure shown on the terminal or in Markdown is taken from these dictionari
 same that ``--json`` prints), so the renderings can never disagree beyond the displayed
 digits. Keys carry their units (``p_w``, ``s_va``, ``i_rms_a``).
 
-Owns: the JSON shape, the refusal of NaN/infinite figures, the number format :func:`fmt`
+Owns: the JSON shape, the refusal of NaN/infinite figures, (the number format :func:`fmt` lives in ``report.format``)
 and the rows of the comparison summary shared by the terminal and Markdown renderings.
 May import anything of fleetpower below it; nothing imports it but ``report`` and ``cli``.
 """
@@ -20,6 +20,7 @@ from ..errors import FleetpowerError
 from ..pq.spectrum import harmonic_table
 from ..simulate import StateResult
 from ..unit import UnitAnalysis
+from .format import fmt
 
 
 def _clean(x: Any) -> Any:
@@ -146,19 +147,6 @@ def unit_to_dict(u: UnitAnalysis) -> dict:
 # ----------------------------------------------------------------------------------
 # terminal
 # ----------------------------------------------------------------------------------
-def fmt(x: float | None, digits: int = 3, unit: str = "") -> str:
-    """Engineering-friendly number with ``digits`` significant figures and a unit."""
-    if x is None:
-        return "—"
-    if abs(x) < 1e-9:  # below any current or power the tool resolves
-        s = "0"
-    else:
-        mag = math.floor(math.log10(abs(x)))
-        dec = max(digits - 1 - mag, 0)
-        s = f"{x:.{dec}f}"
-    return f"{s} {unit}".rstrip()
-
-
 # ----------------------------------------------------------------------------------
 # fleets
 # ----------------------------------------------------------------------------------

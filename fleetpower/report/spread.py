@@ -13,6 +13,7 @@ from pathlib import Path
 import numpy as np
 
 from ..spread.study import SpreadResult
+from .format import fmt, humanize, key_label_unit
 
 #: per state: quantities whose largest value is the bad end (the rest: the smallest)
 _WORST_HIGH = ("p_w", "s_va", "i_rms_a", "thd_i_pct")
@@ -98,13 +99,27 @@ def spread_to_dict(result: SpreadResult) -> dict:
     return out
 
 
-def _fmt(x) -> str:
-    return "-" if x is None else f"{x:.4g}"
+def _fmt(x, unit: str = "") -> str:
+    return "—" if x is None else fmt(x, 4, unit)
+
+
+#: the unit of a toleranced design value, read from its key's last word
+_VALUE_UNITS = {"capacitance": "F", "resistance": "ohm", "voltage": "V", "frequency": "Hz",
+                "inductance": "H", "current": "A", "power": "W"}
+
+
+def _value_text(key: str, value: float) -> str:
+    unit = next((u for w, u in _VALUE_UNITS.items() if key.endswith(w)), "")
+    return fmt(value, 4, unit) if unit else f"{value:.4g}"
 
 
 def render_spread(report: dict, console) -> None:
     """Print a spread report (from :func:`spread_to_dict`) as rich tables."""
+    from rich import box
     from rich.table import Table
+
+    def table(title):
+        return Table(title=title, title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
 
     s = report["samples"]
     what = (f"{s['done']} Monte Carlo samples (seed {report['seed']})"
@@ -114,40 +129,42 @@ def render_spread(report: dict, console) -> None:
         console.print(f"[yellow]{report['note']}[/yellow]")
     if report["caution"]:
         console.print(f"[bold red]{report['caution']}[/bold red]")
-    t = Table(title="Toleranced values", title_justify="left")
+    t = table("Toleranced values")
     for col in ("key", "nominal", "distribution", "band", "source"):
-        t.add_column(col, overflow="fold")
+        t.add_column(col, overflow="fold", min_width=24 if col == "key" else None)
     for r in report["tolerances"]:
         band = (f"±{r['band_pct']:g} %" + (f" = {r['sigmas']:g} σ" if "sigmas" in r else "")
                 if "band_pct" in r else ", ".join(f"{c:.4g}" for c in r["corners"]))
-        t.add_row(r["key"], f"{r['nominal']:.4g}", r["distribution"], band, r["source"][:60])
+        t.add_row(r["key"], _value_text(r["key"], r["nominal"]), r["distribution"], band,
+                  r["source"])
     console.print(t)
-    t = Table(title=f"Percentiles ({report['conditions']})", title_justify="left")
+    t = table(f"Percentiles ({report['conditions']})")
     for col in ("group", "quantity", "P5", "P50", "P95", "max"):
-        t.add_column(col, justify="right" if col[0] in "Pm" else "left")
+        t.add_column(col, justify="right" if col[0] in "Pm" else "left", overflow="fold")
     for r in report["figures"]:
-        t.add_row(r["group"], r["quantity"], _fmt(r["p5"]), _fmt(r["p50"]), _fmt(r["p95"]),
-                  _fmt(r["max"]))
+        label, unit = key_label_unit(r["quantity"])
+        t.add_row(r["group"], label, *[_fmt(r[k], unit) for k in ("p5", "p50", "p95", "max")])
     console.print(t)
-    t = Table(title="Units failing", title_justify="left")
+    t = table("Units failing")
     for col in ("kind", "check", "failing"):
-        t.add_column(col, justify="right" if col == "failing" else "left")
+        t.add_column(col, justify="right" if col == "failing" else "left", overflow="fold")
     for r in report["failing"]:
         pct = "-" if r["fraction"] is None else f"{100 * r['fraction']:.1f} %"
-        t.add_row(r["kind"], r["check"], pct)
+        t.add_row(r["kind"], humanize(r["check"]), pct)
     console.print(t)
     if report["worst"]:
-        t = Table(title="Worst unit per figure", title_justify="left")
-        for col in ("group", "quantity", "end", "value", "unit"):
-            t.add_column(col, overflow="fold")
+        t = table("Worst unit per figure")
+        for col in ("group", "quantity", "end", "value", "which unit"):
+            t.add_column(col, overflow="fold", justify="right" if col == "value" else "left")
         for r in report["worst"]:
-            t.add_row(r["group"], r["quantity"], r["end"], _fmt(r["value"]), r["unit"])
+            label, unit = key_label_unit(r["quantity"])
+            t.add_row(r["group"], label, r["end"], _fmt(r["value"], unit), r["unit"])
         console.print(t)
     ag = report["ageing"]
     if ag:
-        t = Table(title=f"Ageing: state '{ag['state']}' ({ag['load_a'] * 1e3:.1f} mA) on "
+        t = table(f"Ageing: state '{ag['state']}' ({ag['load_a'] * 1e3:.1f} mA) on "
                         f"{ag['units']} units, series capacitor loses "
-                        f"{ag['loss_per_year_pct']:.2f} %/year", title_justify="left")
+                        f"{ag['loss_per_year_pct']:.2f} %/year")
         for col in ("year", "C %", "units delivering", "P5 reservoir min V",
                     "charge-pump limit (nominal) mA"):
             t.add_column(col, justify="right")

@@ -16,7 +16,8 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
-from .model import COMPARE_ROWS, collapse_notes, fmt, marked_cell, safety_label
+from .format import fmt, humanize, quantity_label
+from .model import COMPARE_ROWS, collapse_notes, marked_cell, safety_label
 
 VERDICT_MARK = {
     "pass": "PASS",
@@ -59,10 +60,10 @@ def _state_table(states: list[dict]) -> Table:
     return t
 
 
-def _harmonic_table(state: dict) -> Table:
+def _harmonic_table(state: dict, width: int = 120) -> Table:
     t = Table(box=box.SIMPLE_HEAD, title=f"Harmonic currents, state '{state['state']}' "
               "(rms; % of I1; phase vs V1)", title_justify="left", pad_edge=False)
-    groups = 3
+    groups = 3 if width >= 100 else 2  # 12 columns do not fit 80 without cutting cells
     for _ in range(groups):
         t.add_column("h", justify="right", style="bold")
         t.add_column("mA", justify="right")
@@ -117,7 +118,7 @@ def _output_table(states: list[dict]) -> Table:
     t.add_row("reservoir mean", *[fmt(s["output"]["v_dc_v"], 4, "V") for s in states])
     t.add_row("reservoir minimum", *[fmt(s["output"]["v_dc_min_v"], 4, "V") for s in states])
     t.add_row("ripple", *[fmt(s["output"]["ripple_v_pp"], 3, "V p-p") for s in states])
-    t.add_row("load current", *[fmt(s["output"]["i_dc_a"] * 1e3, 3, "mA") for s in states])
+    t.add_row("load current", *[fmt(s["output"]["i_dc_a"], 3, "A") for s in states])
     t.add_row("in regulation", *["yes" if s["output"]["in_regulation"] else "NO" for s in states])
     return t
 
@@ -125,14 +126,15 @@ def _output_table(states: list[dict]) -> Table:
 def _stress_table(stresses: list[dict]) -> Table:
     t = Table(box=box.SIMPLE_HEAD, title="Component stresses", title_justify="left",
               pad_edge=False)
-    t.add_column("item")
+    t.add_column("item", overflow="fold")
     t.add_column("value", justify="right")
     t.add_column("rating", justify="right")
     t.add_column("verdict")
     t.add_column("condition / note", overflow="fold")
     for s in stresses:
-        t.add_row(s["item"], fmt(s["value"], 3, s["unit"]), fmt(s["limit"], 3, s["unit"]),
-                  _verdict(s["verdict"]), "; ".join(x for x in (s["condition"], s["note"]) if x))
+        note = "; ".join(x for x in (s["condition"], s["note"]) if x)
+        t.add_row(humanize(s["item"]), fmt(s["value"], 3, s["unit"]),
+                  fmt(s["limit"], 3, s["unit"]), _verdict(s["verdict"]), humanize(note))
     return t
 
 
@@ -160,8 +162,8 @@ def _compliance_tables(rows: list[dict]) -> list:
             if scope != "in scope":
                 why = scope + (f"; {r['reason']}" if r.get("reason") else "")
             # out of scope: shown, dimmed, never as a pass or a failure
-            t.add_row(r["quantity"], fmt(r.get("value"), 3, unit), fmt(r.get("limit"), 3, unit),
-                      used, fmt(r.get("headroom"), 2, unit), _verdict(r["verdict"]), why,
+            t.add_row(quantity_label(r["quantity"], order=True), fmt(r.get("value"), 3, unit), fmt(r.get("limit"), 3, unit),
+                      used, fmt(r.get("headroom"), 2, unit), _verdict(r["verdict"]), humanize(why),
                       style="dim" if scope != "in scope" else None)
         out.append(t)
     out.append(Text("Margins against the tables in data/limits/ (mostly from memory): an "
@@ -191,7 +193,7 @@ def render_unit(report: dict, console: Console) -> None:
         console.print(_output_table(known))
     for s in states:
         if s.get("basis"):
-            console.print(Text(f"State '{s['state']}': {s['basis']}", style="dim"))
+            console.print(Text(f"State '{s['state']}': {humanize(s['basis'])}", style="dim"))
     if "circuit_figures" in report:
         console.print(Text(f"Losses, output and component stresses: "
                            f"{report['circuit_figures']}.", style="italic"))
@@ -199,17 +201,17 @@ def render_unit(report: dict, console: Console) -> None:
         h = report["hand_estimate"]
         body = Group(
             Text(f"Xc = 1/(2 pi f C) = {fmt(h['xc_ohm'], 4, 'ohm')}; capacitor current "
-                 f"V/Xc = {fmt(h['i_cap_rms_a'] * 1e3, 4, 'mA')} rms"),
-            Text(f"hand estimate ({h['rule']}): {fmt(h['hand_estimate_i_dc_a'] * 1e3, 4, 'mA')}"),
+                 f"V/Xc = {fmt(h['i_cap_rms_a'], 4, 'A')} rms"),
+            Text(f"hand estimate ({h['rule']}): {fmt(h['hand_estimate_i_dc_a'], 4, 'A')}"),
             Text(f"largest load held in regulation (simulated): "
-                 f"{fmt(h['simulated_max_i_dc_a'] * 1e3, 4, 'mA')}", style="bold"),
+                 f"{fmt(h['simulated_max_i_dc_a'], 4, 'A')}", style="bold"),
             Text("why they differ:"),
-            *[Text(f"  - {line}") for line in h["explanation"]],
+            *[Text(f"  - {humanize(line)}") for line in h["explanation"]],
         )
         console.print(Panel(body, title="Deliverable DC current: quick estimate vs waveform",
                             box=box.ROUNDED, title_align="left"))
     for s in states[:1] if len(states) > 1 else states:
-        console.print(_harmonic_table(s))
+        console.print(_harmonic_table(s, console.width))
     if len(states) > 1:
         console.print(Text("(harmonic tables of the other states: --state NAME or --json)",
                            style="dim"))
@@ -219,7 +221,7 @@ def render_unit(report: dict, console: Console) -> None:
         for part in _compliance_tables(report["compliance"]):
             console.print(part)
     if report["warnings"]:
-        console.print(Panel("\n".join(f"- {w}" for w in report["warnings"]), title="Warnings",
+        console.print(Panel("\n".join(f"- {humanize(w)}" for w in report["warnings"]), title="Warnings",
                             border_style="yellow", title_align="left"))
 
 
@@ -287,7 +289,7 @@ def render_fleet(d: dict, console: Console) -> None:
         console.print(Text("Measured gadgets (figures from their files, not simulated):",
                            style="bold"))
         for m in d["measured"]:
-            console.print(Text(f"  {m['design']} / {m['state']}: {m['basis']}"))
+            console.print(Text(f"  {m['design']} / {m['state']}: {humanize(m['basis'])}"))
     if d["conductors"]:
         c = Table(box=box.SIMPLE_HEAD, title="Feeder conductors", title_justify="left",
                   pad_edge=False)
@@ -304,10 +306,11 @@ def render_fleet(d: dict, console: Console) -> None:
         console.print(Text(
             f"IEEE 519 at the PCC (I_sc {fmt(d['site']['isc_a'], 3, 'A')}, "
             f"{d['site']['isc_source']}), every phase at its worst hour: {len(fails)} of "
-            f"{len(d['compliance'])} limits exceeded; highest use {worst['quantity']} on "
+            f"{len(d['compliance'])} limits exceeded; highest use "
+            f"{quantity_label(worst['quantity'], order=True)} on "
             f"{worst['phase']} {worst['used_pct']:.0f} % ({'FAIL' if fails else 'PASS'})"))
     if d["warnings"]:
-        console.print(Panel("\n".join(f"- {w}" for w in d["warnings"]), title="Warnings",
+        console.print(Panel("\n".join(f"- {humanize(w)}" for w in d["warnings"]), title="Warnings",
                             border_style="yellow", title_align="left"))
 
 
@@ -344,23 +347,23 @@ def render_compare(d: dict, console: Console) -> None:
         console.print(Text(note, style="bold red"))
     for x in d["designs"]:
         if x["failures"]:
-            console.print(Text(f"{x['letter']} fails: " + "; ".join(x["failures"]),
+            console.print(Text(f"{x['letter']} fails: " + "; ".join(humanize(f) for f in x["failures"]),
                                style="red"))
     if d.get("shared_failures"):
         console.print(Text("Every candidate (groups they do not replace) fails: "
-                           + "; ".join(d["shared_failures"])
+                           + "; ".join(humanize(f) for f in d["shared_failures"])
                            + " - not counted against any candidate", style="yellow"))
     console.print(Text("What drives the difference (largest loss in standby):", style="bold"))
     for x in d["designs"]:
-        console.print(Text(f"  {x['letter']}: {x['driver']}"))
+        console.print(Text(f"  {x['letter']}: {humanize(x['driver'])}"))
     for pb in d["paybacks"]:
-        console.print(Text(f"Payback: {pb['reason']}"))
+        console.print(Text(f"Payback: {humanize(pb['reason'])}"))
     if d.get("caution"):
         console.print(Panel(Text(d["caution"], style="bold"), title="SAFETY",
                             border_style="red", box=box.DOUBLE))
     if d.get("basis"):
         console.print(Text(f"Designs enter as: {d['basis']}", style="bold"))
-    console.print(Panel(Text(d["recommendation"], style="bold"), title="Recommendation",
+    console.print(Panel(Text(humanize(d["recommendation"]), style="bold"), title="Recommendation",
                         title_align="left", box=box.ROUNDED))
 
 

@@ -1,0 +1,141 @@
+"""Every screen a person reads, rendered to a string at 80 and 120 columns: no truncated
+cell, no internal quantity key, SI prefixes and thousands separators on known figures.
+
+Rendered from the ``--json`` dictionaries (the same dict the CLI prints), so each example is
+solved once per session (the result cache and the recorded goldens keep this quick).
+
+Source: SI prefixes as the BIPM SI Brochure (9th ed., table 7) defines them; the rest are the
+project's own screen rules (issue 10 item 6: screens read like an engineer's notes).
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import re
+from pathlib import Path
+
+import pytest
+from rich.console import Console
+
+from fleetpower.report.format import fmt, humanize, key_label_unit, quantity_label, si_text
+from fleetpower.report.line import render_line
+from fleetpower.report.spread import render_spread
+from fleetpower.report.terminal import render_compare, render_fleet, render_unit
+
+GOLDEN = Path(__file__).parent / "golden"
+#: internal quantity keys (<quantity>_<unit>) that must not reach a person's screen
+KEY = re.compile(r"\b[a-z0-9]+(?:_[a-z0-9]+)*_(?:p_w|pct|a|v|va|var|frac|kwh|w|s|ohm)\b")
+#: a plain figure with too many zeros: 0.000xxx W, 15000.0 ohm
+UNPREFIXED = re.compile(r"(?<![\w.])(?:0\.000\d+|\d{4,}(?:\.\d+)?) (?:W|V|A|VA|var|F|ohm|s)\b")
+
+
+def _render(fn, d: dict, width: int) -> str:
+    console = Console(width=width, record=True, color_system=None, file=open("/dev/null", "w"))
+    fn(d, console)
+    return console.export_text()
+
+
+def _check(text: str, width: int) -> None:
+    assert "…" not in text  # wrapped, never cut
+    assert max(len(line) for line in text.splitlines()) <= width
+    assert not KEY.findall(text), KEY.findall(text)[:5]
+    assert not UNPREFIXED.findall(text), UNPREFIXED.findall(text)[:5]
+
+
+def _golden(prefix: str) -> list[str]:
+    return sorted(p.stem for p in GOLDEN.glob(f"{prefix}-*.json"))
+
+
+@functools.cache
+def _dict(stem: str) -> dict:
+    return json.loads((GOLDEN / f"{stem}.json").read_text())
+
+
+@pytest.mark.parametrize("width", [80, 120])
+@pytest.mark.parametrize("stem", _golden("unit"))
+def test_unit_screen(stem, width):
+    _check(_render(render_unit, _dict(stem), width), width)
+
+
+@pytest.mark.parametrize("width", [80, 120])
+@pytest.mark.parametrize("stem", _golden("fleet"))
+def test_fleet_screen(stem, width):
+    text = _render(render_fleet, _dict(stem), width)
+    _check(text, width)
+    d = _dict(stem)
+    assert f"{d['units']:,} units" in text  # thousands separators, as every count
+
+
+@pytest.mark.parametrize("width", [80, 120])
+def test_compare_screen(width):
+    _check(_render(render_compare, _dict("demo"), width), width)
+
+
+def test_unit_screen_known_figures():
+    d = _dict("unit-desk-sensor-dropper-lean")
+    text = _render(render_unit, d, 120)
+    s = d["states"][0]
+    # the figures of the JSON, in SI prefixes: 0.0339 A reads as 33.9 mA, 0.0541 W as 54.1 mW
+    assert fmt(s["i_rms_a"], 4, "A").endswith(" mA") and fmt(s["i_rms_a"], 4, "A") in text
+    assert fmt(s["p_w"], 4, "W").endswith(" mW") and fmt(s["p_w"], 4, "W") in text
+    assert "standby power" in text and "standby_p_w" not in text
+    # the stress note "series resistance 47.0 ohm" (shared with --json) reads as 47 ohm
+    assert "47 ohm" in text and "47.0 ohm" not in text
+
+
+def test_line_screen():
+    import contextlib
+    import io
+
+    from fleetpower.cli import main  # the example product line, solved once here
+
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        assert main(["line", "examples/product-line/lantern-works-line.toml", "--json"]) == 0
+    d = json.loads(out.getvalue())
+    for width in (80, 120):
+        _check(_render(render_line, d, width), width)
+
+
+def test_spread_screen():
+    import contextlib
+    import io
+
+    from fleetpower.cli import main
+
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        assert main(["spread", "examples/desk-sensor-dropper-lean.toml", "--samples", "6",
+                     "--years", "2", "--json"]) == 0
+    d = json.loads(out.getvalue())
+    for width in (80, 120):
+        text = _render(render_spread, d, width)
+        _check(text, width)
+        assert "loss: bleeder" in text and "reservoir minimum voltage" in text
+
+
+@pytest.mark.parametrize("value, digits, unit, text", [
+    (0.0000910, 3, "W", "91.0 uW"),     # the issue's example: not 0.0000910 W
+    (15000.0, 3, "ohm", "15.0 kohm"),   # not 15000.0 ohm
+    (0.0254, 3, "V", "25.4 mV"),
+    (0.36, 3, "V p-p", "360 mV p-p"),   # the prefix goes on the unit's first word
+    (12882.0, 3, "A", "12.9 kA"),
+    (26403.0, 4, "kWh", "26,403 kWh"),  # prefixed already: thousands separators only
+    (6333.7, 4, "EUR", "6,334 EUR"),
+    (1.3608087, 4, "W", "1.361 W"),
+    (0.0, 3, "W", "0 W"),
+    (None, 3, "W", "—"),
+])
+def test_fmt(value, digits, unit, text):
+    assert fmt(value, digits, unit) == text
+
+
+def test_labels_and_sentences():
+    assert si_text(1e-7, "F") == "100 nF"
+    assert quantity_label("i_h3_a", order=True) == "harmonic 3 current"
+    assert key_label_unit("loss_zener_w") == ("loss: zener", "W")
+    assert key_label_unit("thd_i_pct") == ("current THD", "%")
+    assert humanize("eu-2023-826-standby standby_p_w") == "eu-2023-826-standby standby power"
+    assert humanize("series resistance 15000.0 ohm") == "series resistance 15 kohm"
+    assert humanize("1e-05 W and -0.065 W") == "1e-05 W and -65 mW"  # exponents left alone
