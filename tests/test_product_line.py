@@ -205,3 +205,28 @@ def test_rows_carry_scope_and_the_market_decides_which_rules_apply(result):
         mine = in_scope[(in_scope["model"] == p["model"]) & (in_scope["market"] == p["market"])]
         assert p["worst_check"] in set(mine["set"] + " " + mine["quantity"])
         assert p["worst_used_pct"] == pytest.approx(mine["used_pct"].dropna().max())
+
+
+def test_the_basis_of_measured_figures_is_shown_in_every_view(cli, tmp_path):
+    # a measured gadget sold on other mains: its figures are its capture scaled by the
+    # declared voltage-scaling model (constant power for a switch-mode supply: common
+    # practice, no source); every view says so, not only --json.
+    for name in ("smart-plug-measured.toml", "smart-plug-capture.csv",
+                 "smart-plug-standby-harmonics.csv"):
+        shutil.copy(REPO / "examples" / name, tmp_path / name)
+    line = tmp_path / "line.toml"
+    line.write_text('sales_years = 1\n[[model]]\nname = "bought plug"\n'
+                    'design = "smart-plug-measured.toml"\nservice_life_years = 3\n'
+                    'hours = { relay_on = 4, standby = 20 }\n'
+                    '[model.sales]\nEU = 1000\nUS = 1000\n', encoding="utf-8")
+    rc, out, err = cli("line", line, "--json")
+    assert rc == 0, err
+    basis = {p["market"]: p["figures_basis"] for p in json.loads(out)["pairs"]}
+    assert basis["US"] and all("constant-power" in b or "constant power" in b
+                               for b in basis["US"]), basis
+    md = tmp_path / "line.md"
+    rc, text, err = cli("line", line, "--width", "120", "--markdown", md)
+    assert rc == 0, err
+    for view in (" ".join(text.split()), " ".join(md.read_text().split())):
+        assert "basis of the figures" in view.lower()
+        assert " ".join(basis["US"][0].split()) in view

@@ -41,6 +41,13 @@ def _fix(row: dict) -> dict:
     return {k: row[k] for k in keys}
 
 
+def _basis_lines(d: dict) -> list[str]:
+    """One line per pair and state whose figures rest on a stated basis (a measured
+    gadget's capture, scaled by a voltage model onto another market's mains)."""
+    return [f"{p['model']} in {p['market']}, {b}" for p in d["pairs"]
+            for b in p.get("figures_basis") or []]
+
+
 def line_to_dict(r: LineResult) -> dict:
     """JSON-ready report of a :class:`fleetpower.product_line.LineResult`."""
     spec = r.spec
@@ -144,6 +151,11 @@ def render_line(d: dict, console: Console) -> None:
         if p["failures"]:
             console.print(Text(f"{p['model']} in {p['market']} fails: {humanize(p['failures'])}",
                                style="red"))
+    basis = _basis_lines(d)
+    if basis:
+        console.print(Text("basis of the figures (measured, not simulated):", style="bold"))
+        for line in basis:
+            console.print(Text("  " + line))
     ib = Table(box=box.SIMPLE_HEAD, title="Installed base (all models and markets)",
                title_justify="left", pad_edge=False)
     for col in ("year", "units in service", "energy", "CO2"):
@@ -200,6 +212,11 @@ def line_markdown(d: dict) -> str:
         lines += ["", "## Sold outside the rating", ""] + notes
     if fails:
         lines += ["", "## Failed checks", ""] + fails
+    basis = _basis_lines(d)
+    if basis:
+        lines += ["", "## Basis of the figures", "",
+                  "Figures of a measured supply are scaled from its capture, not simulated:",
+                  ""] + [f"- {x}" for x in basis]
     lines += ["", "## Installed base", "", "| year | units in service | energy kWh | CO2 kg |",
               "|---:|---:|---:|---:|"]
     for y in d["totals_by_year"]:
