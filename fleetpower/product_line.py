@@ -40,7 +40,7 @@ from .limits.applicability import (
 )
 from .simulate import Case, run
 from .topologies.base import STRESS_MAINS_FACTOR
-from .unit import UnitAnalysis, analyse_unit
+from .unit import UnitAnalysis, analyse_unit, max_deliverable_currents_a
 
 #: a design rated for one mains tolerates this fraction either side of its rated voltage
 #: (the +/-10 % supply-voltage tolerance of IEC 60038, from memory)
@@ -93,8 +93,8 @@ def rating_note(design: Design, v_v: float, f_hz: float) -> str:
 def _cases(design: Design) -> list[Case]:
     """Every case analyse_unit asks for that is known before solving (so one batch)."""
     cases = [Case(design, s, f) for f in (1.0, STRESS_MAINS_FACTOR) for s in design.states]
-    if isinstance(design.output, ConverterOutput):  # EPS no-load and 25..100 % points
-        out = design.output
+    if design.external_power_supply and isinstance(design.output, ConverterOutput):
+        out = design.output  # the EPS no-load and 25..100 % points
         state = next(iter(design.states))
         loads = [0.0] + [f * out.rated_power / out.voltage for f in EPS_LOAD_FRACTIONS]
         cases += [Case(design, state, 1.0, a) for a in loads]
@@ -102,12 +102,27 @@ def _cases(design: Design) -> list[Case]:
 
 
 def analyse_on_mains(designs: dict[tuple, Design], progress=None) -> dict[tuple, UnitAnalysis]:
-    """Analyse each (design on mains) once; their known cases solved in one batch first."""
-    cases = [c for d in designs.values() for c in _cases(d)]
-    run(cases)  # one batch; analyse_unit below is then served by the cache
+    """Analyse each (design on mains) once, with as few batches as the work allows.
+
+    Every case known before solving (all states at nominal and +10 % mains, the EPS load
+    points) of every design goes into ONE :func:`fleetpower.simulate.run` batch. The
+    deliverable-current search runs only for a design that cannot hold its output in some
+    state (the line reports no hand estimate beside it), and the searches of all such
+    designs run in lockstep, one batch per step. :func:`fleetpower.unit.analyse_unit` is
+    then served by the cache.
+    """
+    per = {key: _cases(d) for key, d in designs.items()}
+    results = iter(run([c for cs in per.values() for c in cs]))
+    collapsed = []
+    for key, cs in per.items():
+        res = [next(results) for _ in cs]
+        if any(r.in_regulation is False for c, r in zip(cs, res, strict=True)
+                if c.mains_factor == 1.0 and c.load_a is None):
+            collapsed.append(designs[key])
+    max_deliverable_currents_a(collapsed)  # fills the cache the analyses below read
     out = {}
     for k, (key, d) in enumerate(designs.items()):
-        out[key] = analyse_unit(d)
+        out[key] = analyse_unit(d, report_deliverable=False)
         if progress is not None:
             progress(k + 1, len(designs), d.name)
     return out

@@ -21,7 +21,15 @@ import pandas as pd
 from .errors import InputError, suggest
 from .io.design_file import ConverterOutput, Design
 from .limits.applicability import eps_figures, unit_compliance
-from .simulate import Balance, StateResult, circuit_rows, simulate, simulate_cases  # noqa: F401
+from .simulate import (  # noqa: F401
+    Balance,
+    Case,
+    StateResult,
+    circuit_rows,
+    run,
+    simulate,
+    simulate_cases,
+)
 from .topologies.base import (  # noqa: F401 (re-exported)
     INRUSH_RESISTOR_RANGE_OHM,
     LOSS_LABELS,
@@ -48,6 +56,70 @@ ISOLATION_UNKNOWN_CAUTION = (
 # ----------------------------------------------------------------------------------
 # deliverable current and the hand estimate
 # ----------------------------------------------------------------------------------
+def _deliverable_search(design: Design, rounds: int, points: int):
+    """The bracketing search of :func:`max_deliverable_current_a` as a generator.
+
+    It yields each load [A] it needs to know about and is sent back whether the supply
+    holds regulation at it; its return value is the answer. Written this way, the search
+    of one design and the lockstep search of many (:func:`max_deliverable_currents_a`)
+    are the same code, and ask for the same loads.
+    """
+    hi = design.topology_impl.deliverable_ceiling_a(design)
+    lo = 0.0
+    known: dict[float, bool] = {}
+    for _ in range(rounds):
+        loads = np.linspace(lo, hi, points)
+
+        def ok(i: int, loads=loads):
+            x = float(loads[i])
+            if x not in known:
+                known[x] = bool((yield x))
+            return known[x]
+
+        if not (yield from ok(0)):
+            return 0.0
+        if (yield from ok(points - 1)):
+            return float(loads[-1])
+        good, bad = 0, points - 1  # ok(good), not ok(bad)
+        while bad - good > 1:
+            mid = (good + bad) // 2
+            good, bad = (mid, bad) if (yield from ok(mid)) else (good, mid)
+        lo, hi = float(loads[good]), float(loads[bad])
+    return lo
+
+
+def max_deliverable_currents_a(
+    designs: list[Design], mains_factor: float = 1.0, rounds: int = 2, points: int = 12
+) -> list[float]:
+    """Largest output current [A] each of several supplies sustains in regulation.
+
+    The searches of :func:`max_deliverable_current_a` run in lockstep: each step solves
+    the next load of every design still searching in ONE :func:`fleetpower.simulate.run`
+    batch, so n designs cost the steps of the longest search, not n times them. Each
+    design's answer (and every case it solves) is exactly its search alone.
+    """
+    searches = [_deliverable_search(d, rounds, points) for d in designs]
+    answers: list[float] = [0.0] * len(designs)
+    pending: dict[int, float] = {}
+
+    def advance(k: int, holds: bool | None) -> None:
+        try:
+            pending[k] = searches[k].send(holds)
+        except StopIteration as done:
+            answers[k] = float(done.value)
+
+    for k in range(len(designs)):
+        advance(k, None)
+    while pending:
+        asked = dict(pending)
+        pending.clear()
+        results = run([Case(designs[k], next(iter(designs[k].states)), mains_factor, x)
+                       for k, x in asked.items()])
+        for k, r in zip(asked, results, strict=True):
+            advance(k, bool(r.in_regulation))
+    return answers
+
+
 def max_deliverable_current_a(
     design: Design, mains_factor: float = 1.0, rounds: int = 2, points: int = 12
 ) -> float:
@@ -55,38 +127,12 @@ def max_deliverable_current_a(
 
     Found by bracketing: each round lays ``points`` loads evenly between the last bracket's
     ends and narrows to the last load whose reservoir minimum stays above output voltage +
-    dropout (linear regulator) or the converter's undervoltage lockout. Within a round the grid is searched by bisection (the regulation margin
-    falls as the load rises), so a round costs about log2(points) solves instead of
-    ``points``, and the answer is the same grid load an exhaustive scan finds.
+    dropout (linear regulator) or the converter's undervoltage lockout. Within a round the
+    grid is searched by bisection (the regulation margin falls as the load rises), so a
+    round costs about log2(points) solves instead of ``points``, and the answer is the same
+    grid load an exhaustive scan finds.
     """
-    state = next(iter(design.states))
-
-    def holds(load_a: float) -> bool:
-        (r,) = simulate_cases(design, [(state, mains_factor, float(load_a))])
-        return bool(r.in_regulation)
-
-    hi = design.topology_impl.deliverable_ceiling_a(design)
-    lo = 0.0
-    known: dict[float, bool] = {}
-    for _ in range(rounds):
-        loads = np.linspace(lo, hi, points)
-
-        def ok(i: int, loads=loads) -> bool:
-            x = float(loads[i])
-            if x not in known:
-                known[x] = holds(x)
-            return known[x]
-
-        if not ok(0):
-            return 0.0
-        if ok(points - 1):
-            return float(loads[-1])
-        good, bad = 0, points - 1  # ok(good), not ok(bad)
-        while bad - good > 1:
-            mid = (good + bad) // 2
-            good, bad = (mid, bad) if ok(mid) else (good, mid)
-        lo, hi = float(loads[good]), float(loads[bad])
-    return lo
+    return max_deliverable_currents_a([design], mains_factor, rounds, points)[0]
 
 
 def hand_estimate(design: Design, simulated_max_a: float) -> HandEstimate | None:
@@ -135,11 +181,14 @@ class UnitAnalysis:
 
 
 def analyse_unit(design: Design, states: list[str] | None = None,
-                 limits_file=None) -> UnitAnalysis:
+                 limits_file=None, report_deliverable: bool = True) -> UnitAnalysis:
     """Simulate, analyse and stress-check one design (the library behind ``fleetpower unit``).
 
     All requested states are solved at nominal mains and all states at +10 % mains (for
-    stresses) in one batch.
+    stresses) in one batch. The largest deliverable current (a search of about ten
+    solves) is found when a state cannot hold its load, and also for a topology that
+    always reports it (a capacitive dropper) unless ``report_deliverable`` is False --
+    for callers that read it only when a state fails (a product line).
     """
     chosen = list(design.states) if states is None else list(states)
     all_states = list(design.states)
@@ -154,8 +203,8 @@ def analyse_unit(design: Design, states: list[str] | None = None,
     max_a = None
     hand = None
     if design.has_linear_regulator:
-        if any(not r.in_regulation for r in nominal) or \
-                design.topology_impl.always_report_deliverable:
+        if any(not r.in_regulation for r in nominal) or (
+                report_deliverable and design.topology_impl.always_report_deliverable):
             max_a = max_deliverable_current_a(design)
         for r in nominal:
             if not r.in_regulation:

@@ -230,3 +230,20 @@ def test_the_basis_of_measured_figures_is_shown_in_every_view(cli, tmp_path):
     for view in (" ".join(text.split()), " ".join(md.read_text().split())):
         assert "basis of the figures" in view.lower()
         assert " ".join(basis["US"][0].split()) in view
+
+
+def test_lockstep_deliverable_search_is_each_search_alone(result):
+    # the searches of several designs run in lockstep (one batch per step) must give each
+    # design exactly its own answer: the same bracketing grid (common practice, no source)
+    from fleetpower.unit import max_deliverable_current_a, max_deliverable_currents_a
+
+    night = load_design(LINE_DIR / "nightlight-dropper-230.toml")
+    hub = load_design(LINE_DIR / "sensor-hub-dropper-120.toml")
+    designs = [night.on_mains(120.0, 60.0), hub, night]
+    together = max_deliverable_currents_a(designs)
+    alone = [max_deliverable_current_a(d) for d in designs]
+    assert together == alone and len(set(together)) == 3
+    # the line searches only where a state cannot hold its output (all it reports)
+    for a in result.analyses.values():
+        collapsed = any(r.in_regulation is False for r in a.states)
+        assert (a.max_deliverable_a is not None) == collapsed
