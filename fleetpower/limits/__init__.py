@@ -24,7 +24,8 @@ _EXPORTS = {
          "evaluate_standby", "evaluate_user_set", "formula_limit", "ieee519_row"),
         "rules"),
     **dict.fromkeys(("COLUMNS", "ComplianceRow", "limits_dir", "list_limit_sets",
-                     "load_limit_set", "load_scopes", "margin"), "tables"),
+                     "load_limit_set", "load_scopes", "margin", "limit_records",
+                     "scope_record"), "tables"),
 }
 
 
@@ -48,9 +49,11 @@ __all__ = [
     "evaluate_user_set",
     "formula_limit",
     "ieee519_row",
+    "limit_records",
     "limits_dir",
     "list_limit_sets",
     "load_limit_set",
     "load_scopes",
+    "scope_record",
     "margin",
 ]

@@ -74,8 +74,7 @@ def low_voltage_eps(v_out_v: float, p_out_w: float) -> bool:
 
 
 def _scope_rec(set_id: str) -> dict:
-    sc = L.load_scopes().set_index("set")
-    return sc.loc[set_id].to_dict() if set_id in sc.index else {}
+    return L.scope_record(set_id)
 
 
 def mains_scope(set_id: str, design: Design) -> str:
@@ -182,10 +181,10 @@ def _scoped(row, scope: str = IN_SCOPE, verdict: str | None = None,
 def _set_row(set_id: str, quantity: str, unit: str, verdict: str, scope: str,
              reason: str) -> dict:
     """One row standing for a whole set that is not evaluated or not in scope."""
-    df = L.load_limit_set(set_id)
+    first = L.limit_records(set_id)[0]
     row = L.ComplianceRow(set_id, quantity, None, None, unit, None, None, verdict,
-                          str(df["clause"].iloc[0]), str(df["edition"].iloc[0]),
-                          str(df["provenance"].iloc[0]), reason)
+                          str(first["clause"]), str(first["edition"]),
+                          str(first["provenance"]), reason)
     return _scoped(row, scope)
 
 

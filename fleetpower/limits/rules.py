@@ -42,6 +42,7 @@ from .tables import (
     covers_power,
     covers_range,
     limit_frame,
+    limit_records,
     make_row,
     margin,
     not_applicable_row,
@@ -125,7 +126,7 @@ def evaluate_harmonic_emissions(
             " (choose A, B, C or D)",
         )
     set_id = _CLASS_SETS[cls]
-    df = limit_frame(set_id if limit_set is None else limit_set)
+    df = limit_records(set_id if limit_set is None else limit_set)
     i_h = _harmonics(i_h_rms_a, "i_h_rms_a")
     p_w = float(p_w)
     if is_lighting and cls != "C":
@@ -155,7 +156,7 @@ def evaluate_harmonic_emissions(
                 )
             ]
     rows = []
-    for rec in df.to_dict("records"):
+    for rec in df:
         if np.isnan(rec["harmonic"]):
             continue
         h = int(rec["harmonic"])
@@ -247,18 +248,18 @@ def evaluate_standby(
             f"unknown mode '{mode}'{suggest(mode, _STANDBY_MODES)}"
             f" (choose {', '.join(_STANDBY_MODES)})",
         )
-    df = limit_frame(limit_set)
-    sel = df[df["quantity"] == _STANDBY_MODES[mode]]
-    if sel.empty:
+    df = limit_records(limit_set)
+    sel = [rec for rec in df if rec["quantity"] == _STANDBY_MODES[mode]]
+    if not sel:
         return [
             not_applicable_row(
-                str(df["set"].iloc[0]),
+                str(df[0]["set"]),
                 f"set has no row for mode '{mode}'",
                 df,
                 _STANDBY_MODES[mode],
             )
         ]
-    return [make_row(rec, float(p_w), rec["limit"]) for rec in sel.to_dict("records")]
+    return [make_row(rec, float(p_w), rec["limit"]) for rec in sel]
 
 
 def average_active_efficiency(eff_at_fractions: Sequence[float]) -> float:
@@ -363,16 +364,17 @@ def evaluate_eps(
     region = str(region).lower()
     if region not in ("eu", "us"):
         raise InputError("<input>", "region", f"unknown region '{region}' (choose eu or us)")
-    df = limit_frame(_EPS_SETS[(region, bool(low_voltage))] if limit_set is None else limit_set)
+    df = limit_records(_EPS_SETS[(region, bool(low_voltage))] if limit_set is None
+                       else limit_set)
     p = float(p_out_rated_w)
     if not p > 0:
         raise InputError("<input>", "p_out_rated_w", "rated output power must be > 0 W")
     rows = []
     for qty, value in (("no_load_p_w", no_load_p_w), ("avg_active_eff_frac", average_efficiency)):
-        sel = [r for r in df.to_dict("records") if r["quantity"] == qty]
+        sel = [r for r in df if r["quantity"] == qty]
         hit = [r for r in sel if covers_power(r, p)]
         if not hit:
-            base = sel[0] if sel else {"set": str(df["set"].iloc[0]), "quantity": qty, "unit": ""}
+            base = sel[0] if sel else {"set": str(df[0]["set"]), "quantity": qty, "unit": ""}
             rows.append(
                 make_row(base, None, None, reason=f"no row covers P_out = {p:g} W (out of scope)")
             )
@@ -473,8 +475,7 @@ def evaluate_ieee519(
         raise InputError("<input>", "i_l_a", "IL and Isc must be > 0 A")
     ratio = 1.0 if generation else isc_a / i_l_a
     label = ieee519_row(ratio)
-    df = limit_frame(limit_set)
-    recs = [r for r in df.to_dict("records") if covers_range(r, ratio)]
+    recs = [r for r in limit_records(limit_set) if covers_range(r, ratio)]
     reason = f"Isc/IL row {label}" + (" (generation equipment)" if generation else "")
     rows = []
     for rec in recs:
@@ -524,10 +525,9 @@ def evaluate_ieee519_voltage(
         "v_h_individual_pct": float(harm.max()),
         "thd_v_pct": float(math.sqrt(float(np.sum(harm**2)))),
     }
-    df = limit_frame(limit_set)
     return [
         make_row(r, values[r["quantity"]], r["limit"], "%", f"bus {float(bus_kv):g} kV")
-        for r in df.to_dict("records")
+        for r in limit_records(limit_set)
         if covers_range(r, float(bus_kv)) and r["quantity"] in values
     ]
 
@@ -585,17 +585,17 @@ def evaluate_discharge(
                 "<input>", "rule", f"unknown rule '{rule}'{suggest(rule, _DISCHARGE_SETS)}"
             )
         limit_set = _DISCHARGE_SETS[rule]
-    df = limit_frame(limit_set)
+    df = limit_records(limit_set)
     v0_v, r_bleed_ohm, c_f = float(v0_v), float(r_bleed_ohm), float(c_f)
     if not (v0_v >= 0 and r_bleed_ohm > 0 and c_f > 0):
         raise InputError("<input>", "discharge", "need V0 >= 0 V, R > 0 ohm and C > 0 F")
-    by_q = {r["quantity"]: r for r in df.to_dict("records")}
+    by_q = {r["quantity"]: r for r in df}
     missing = {"v_threshold_v", "t_discharge_s"} - set(by_q)
     if missing:
         raise InputError(
             "<input>", "limit_set", f"discharge set lacks {', '.join(sorted(missing))}"
         )
-    set_id = str(df["set"].iloc[0])
+    set_id = str(df[0]["set"])
     if "c_min_f" in by_q and c_f <= by_q["c_min_f"]["limit"]:
         cmin = by_q["c_min_f"]["limit"]
         return [

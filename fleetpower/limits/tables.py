@@ -236,12 +236,18 @@ def make_row(
 def not_applicable_row(
     set_id: str,
     reason: str,
-    df: pd.DataFrame | None = None,
+    df: pd.DataFrame | list[dict] | None = None,
     quantity: str = "",
     unit: str | None = None,
 ) -> ComplianceRow:
-    """One "not applicable" row for a whole set (clause and edition from its first row)."""
-    rec = df.iloc[0].to_dict() if df is not None and len(df) else {}
+    """One "not applicable" row for a whole set (clause and edition from its first row).
+
+    ``df`` is the set's rows, as a DataFrame or as :func:`limit_records` gives them.
+    """
+    if isinstance(df, pd.DataFrame):
+        rec = df.iloc[0].to_dict() if len(df) else {}
+    else:
+        rec = df[0] if df else {}
     return ComplianceRow(
         set=set_id,
         quantity=quantity,
@@ -510,16 +516,59 @@ def limit_frame(set_or_df: str | Path | pd.DataFrame) -> pd.DataFrame:
     return set_or_df if isinstance(set_or_df, pd.DataFrame) else load_limit_set(set_or_df)
 
 
+@functools.lru_cache(maxsize=64)
+def _records_cached(name: str, folder: str,
+                    stamp: tuple[tuple[str, float], ...]) -> tuple[dict, ...]:
+    return tuple(_shipped_set_cached(name, folder, stamp).to_dict("records"))
+
+
+def limit_records(set_or_df: str | Path | pd.DataFrame) -> list[dict]:
+    """The rows of a limit set as plain dicts (column -> value), in file order.
+
+    The evaluators read rows this way: a shipped set's rows are converted from pandas once
+    per file modification time and handed out as fresh dicts, so checking many units (a
+    product line, a spread) costs no DataFrame work per unit. A DataFrame or a user file
+    is converted on each call, as :func:`load_limit_set` reads it.
+    """
+    if isinstance(set_or_df, pd.DataFrame):
+        return set_or_df.to_dict("records")
+    text = str(set_or_df)
+    path = Path(text)
+    if path.suffix.lower() == ".csv" or path.is_file():
+        return load_limit_set(path).to_dict("records")
+    recs = _records_cached(text, str(limits_dir()), _stamp())
+    if not recs:
+        load_limit_set(text)  # raises the unknown-set error
+    return [dict(r) for r in recs]
+
+
+@functools.lru_cache(maxsize=4)
+def _scope_records_cached(path: str, stamp: float) -> dict[str, dict]:
+    sc = _scopes_cached(path, stamp)
+    return {str(r["set"]): r for r in sc.to_dict("records")}
+
+
+def scope_record(set_id: str) -> dict:
+    """The scope row of one shipped set as a dict ({} when the scope table has none)."""
+    path = limits_dir() / SCOPE_FILE
+    if not path.is_file():
+        load_scopes()  # raises the incomplete-installation error
+    rec = _scope_records_cached(str(path), path.stat().st_mtime).get(set_id)
+    return dict(rec) if rec is not None else {}
+
+
 __all__ = [
     "COLUMNS",
     "ComplianceRow",
     "covers_power",
     "covers_range",
     "limit_frame",
+    "limit_records",
     "limits_dir",
     "list_limit_sets",
     "load_limit_set",
     "make_row",
     "margin",
     "not_applicable_row",
+    "scope_record",
 ]
