@@ -269,8 +269,10 @@ def line_figures(d: dict, folder) -> list[Path]:
         for j in range(len(markets)):
             if np.isfinite(grid[i, j]):
                 ax.text(j, i, f"{grid[i, j]:.0f}", ha="center", va="center", fontsize=8)
-    fig.colorbar(im, ax=ax, label="headroom [%] (negative fails)")
+    fig.colorbar(im, ax=ax, extend="both",
+                 label="headroom [%] (< 0 fails)")
     ax.set_title("Headroom of the most-used check, model x market")
+    ax.set_xlabel("market (blank: not sold there, or no counted check)")
     fig.tight_layout()
     written = _save(fig, out, "headroom_matrix")
     plt.close(fig)
@@ -285,8 +287,9 @@ def line_figures(d: dict, folder) -> list[Path]:
         ax.bar(years, e, bottom=bottom, label=m)
         bottom += e
     ax.set_xlabel("year of the line")
+    ax.set_title("Installed-base energy by model", fontsize=9)
     ax.set_ylabel("installed-base energy [MWh/year]")
-    ax.legend(fontsize=8)
+    ax.legend(title="model", fontsize=8)
     fig.tight_layout()
     written += _save(fig, out, "installed_energy")
     plt.close(fig)

@@ -185,27 +185,35 @@ def render_spread(report: dict, console) -> None:
 def spread_figures(result: SpreadResult, folder) -> list[Path]:
     """Write a percentile plot (empirical CDF) per state of P and of the reservoir minimum,
     PNG and SVG each."""
-    from .plots import _save, require_matplotlib
+    from .plots import _floor_axis, _save, require_matplotlib
 
     plt = require_matplotlib()
     out = Path(folder)
     out.mkdir(parents=True, exist_ok=True)
     paths = []
     st = result.statistics
-    for quantity, label in (("p_w", "input power P [W]"),
-                            ("v_dc_min_v", "reservoir minimum [V]")):
+    for quantity, label, unit in (("p_w", "input power P [W]", "W"),
+                                  ("v_dc_min_v", "reservoir minimum [V]", "V")):
         fig, ax = plt.subplots(figsize=(6.4, 4.0))
+        every = []
         for state in result.plan.design.states:
             v = np.sort(st.values(f"{state}|{quantity}"))
             v = v[np.isfinite(v)]
             if v.size:
-                ax.plot(v, 100.0 * (np.arange(1, v.size + 1) / v.size), label=state)
+                every.append(v)
+                ax.plot(v, 100.0 * (np.arange(1, v.size + 1) / v.size), label=state,
+                        drawstyle="steps-post")
         for p in (5, 50, 95):
-            ax.axhline(p, color="0.8", lw=0.8)
+            ax.axhline(p, color="0.8", lw=0.8, zorder=0)
+            ax.text(1.0, p, f" P{p}", transform=ax.get_yaxis_transform(), fontsize=7,
+                    color="0.4", va="center", ha="left")
+        if every:
+            _floor_axis(ax, np.concatenate(every), axis="x", unit=unit)
+        ax.set_ylim(0, 100)
         ax.set_xlabel(label)
         ax.set_ylabel("units at or below [%]")
         ax.set_title(f"{result.plan.design.name}: {result.done} units")
-        ax.legend()
+        ax.legend(title="state", fontsize=8)
         fig.tight_layout()
         paths += _save(fig, out, f"spread_{quantity}")
         plt.close(fig)
