@@ -48,6 +48,11 @@ def test_every_model_on_every_market(result):
     assert len(spec.models) >= 4
     topologies = {m.design.topology for m in spec.models}
     assert {"capacitive-dropper", "rectifier-smps", "mains-transformer"} <= topologies
+    # a universal-input switch-mode supply: rated 90-264 V (common practice, no source)
+    universal = [m.design for m in spec.models if m.design.topology == "rectifier-smps"
+                 and m.design.rated_input is not None]
+    assert any(d.rated_input.voltage[0] <= 100 and d.rated_input.voltage[1] >= 240
+               for d in universal)
     mains = {spec.markets[k].mains for k in spec.market_ids}
     assert (100.0, 50.0) in mains or (100.0, 60.0) in mains
     assert (120.0, 60.0) in mains
