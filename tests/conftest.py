@@ -6,10 +6,12 @@ import contextlib
 import io
 import json
 import math
+import os
 import sys
 from pathlib import Path
 
 import pytest
+from hypothesis import settings
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -17,6 +19,17 @@ else:  # pragma: no cover
     import tomli as tomllib
 
 from fleetpower.cli import main
+
+# Hypothesis profiles, chosen with HYPOTHESIS_PROFILE (tests without their own case count
+# take it from here; tests/test_robustness_cli.py sizes its properties from it):
+#   short   - the default: a few dozen cases per property, for quick local runs;
+#   ci      - .ci/run exports it: 1,000 cases per verb, reproducible (derandomized);
+#   explore - many random cases, for hunting new failures by hand.
+settings.register_profile("short", max_examples=30, deadline=None, derandomize=True)
+settings.register_profile("ci", max_examples=1000, deadline=None, derandomize=True,
+                          print_blob=True)
+settings.register_profile("explore", max_examples=5000, deadline=None)
+settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "short"))
 
 REPO = Path(__file__).resolve().parent.parent
 EXAMPLES = REPO / "examples"
