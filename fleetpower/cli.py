@@ -163,6 +163,8 @@ def cmd_limits(args) -> int:
         console.print(t)
         return 0
     df = L.load_limit_set(args.set)
+    if df.empty:
+        raise InputError(args.set, "", "holds no limit rows (only a header)")
     if args.json:
         print(df.to_json(orient="records", indent=2))
         return 0
