@@ -294,17 +294,14 @@ def run(
     Cases found in ``cache`` are not solved again; duplicates within ``cases`` are solved
     once. ``executor`` runs the batch (:mod:`fleetpower.executors`). ``initial`` gives, per
     case, a starting guess of the engine unknowns in place of the topology's (a near
-    solution's :attr:`StateResult.x_start`: the shooting iteration then needs a couple of
-    cycles instead of about ten); the result does not depend on it beyond the solver's
-    periodicity tolerance (and the engine's coarse first solve is then skipped).
+    solution's :attr:`StateResult.x_start`); the engine's coarse first solve starts from
+    it, and the result does not depend on it beyond the solver's periodicity tolerance.
     ``samples_per_cycle`` is the accuracy setting (steps per mains cycle; the default is
     chosen by measurement, DEVELOPERS.md "Accuracy per cost"). ``coarse_start`` sets the
-    steps of the engine's coarse first solve (None: the engine's default, or none when
-    ``initial`` is given; 0: none); it changes the cost, not the result (beyond the
-    periodicity tolerance), so it is not part of the cache key.
+    steps of the engine's coarse first solve (None: the engine's default; 0: none); it
+    changes the cost, not the result (beyond the periodicity tolerance), so it is not part
+    of the cache key.
     """
-    if coarse_start is None and initial is not None:
-        coarse_start = 0
     keys = [case_key(c, samples_per_cycle) for c in cases]
     out: list[StateResult | None] = [None] * len(cases)
     todo: dict[tuple, list[int]] = {}
