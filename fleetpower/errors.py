@@ -36,8 +36,19 @@ class InputError(FleetpowerError):
         super().__init__(self.one_line())
 
     def one_line(self) -> str:
+        """``file: place: message`` on one line: characters a terminal would not print
+        (line breaks, NUL, escapes) that a user's key, value or path holds are shown
+        escaped, so the message never spans several lines."""
         place = f"{self.where}: " if self.where else ""
-        return f"{self.file}: {place}{self.message}"
+        return printable(f"{self.file}: {place}{self.message}")
+
+
+def printable(text: str) -> str:
+    """``text`` with every non-printable character escaped (``\\x1e``, ``\\u2028``)."""
+    if text.isprintable():
+        return text
+    return "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii")
+                   for c in text)
 
 
 class SolverError(FleetpowerError):

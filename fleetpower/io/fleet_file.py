@@ -130,11 +130,13 @@ def _site(file: str, d: Any) -> Site:
     for k in ("system", "voltage", "frequency"):
         if k not in d:
             raise InputError(file, f"site.{k}", "missing key")
-    if d["system"] not in SYSTEMS:
+    if not isinstance(d["system"], str) or d["system"] not in SYSTEMS:
         raise InputError(file, "site.system", f"unknown system {d['system']!r}"
                          f"{suggest(str(d['system']), SYSTEMS)}; choose one of "
                          f"{', '.join(SYSTEMS)}")
     system = SYSTEMS[d["system"]]
+    if not isinstance(d.get("currency", ""), str):
+        raise InputError(file, "site.currency", "expected a text such as \"EUR\"")
 
     def q(key, dim):
         if key not in d:
