@@ -12,23 +12,56 @@ from pathlib import Path
 from rich.console import Console
 
 from . import __version__
-from .errors import FleetpowerError, InputError, SolverError
+from .errors import FleetpowerError, InputError, SolverError, printable
 from .report.format import QUANTITY_LABELS, quantity_label, si_text  # noqa: F401 (re-exported)
 
 EXIT_OK = 0
 EXIT_VERDICT = 1  # only with --strict: a check failed
 EXIT_INPUT = 2
 EXIT_SOLVER = 3
-EXIT_INTERRUPTED = 130
+EXIT_INTERNAL = 4  # a fault of the program itself (the one line asks for --debug)
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, the shells' convention
+EXIT_CLOSED_PIPE = 141  # 128 + SIGPIPE: the reader stopped early (`| head`)
+
+#: columns --width accepts (narrower tables cannot be read, wider ones only cost memory)
+WIDTH_MIN, WIDTH_MAX = 40, 1000
+
+
+class _Screen(Console):
+    """The report's console: a closed stdout (`| head`) raises BrokenPipeError for
+    :func:`main` to end quietly, where rich's default would exit 1 (a failed check)."""
+
+    def on_broken_pipe(self) -> None:
+        self.quiet = True
+        raise BrokenPipeError(32, "Broken pipe")
 
 
 def _console(args) -> Console:
-    return Console(width=getattr(args, "width", None) or None, highlight=False)
+    return _Screen(width=getattr(args, "width", None) or None, highlight=False)
 
 
 def _status(message: str):
     """A spinner on stderr while the engine works (silent when stderr is not a terminal)."""
     return Console(stderr=True).status(message, spinner="line")
+
+
+def _width(text: str) -> int:
+    """``--width``: a whole number of columns in WIDTH_MIN..WIDTH_MAX (argparse type)."""
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"not a whole number of columns: {printable(text[:40])!r}") from None
+    if not WIDTH_MIN <= n <= WIDTH_MAX:
+        raise argparse.ArgumentTypeError(
+            f"{n} columns is outside {WIDTH_MIN}..{WIDTH_MAX}")
+    return n
+
+
+def _folder_option(path, option: str) -> None:
+    """Refuse, before any solving, an output folder that exists as something else."""
+    if path and os.path.exists(path) and not os.path.isdir(path):
+        raise InputError(path, option, "exists and is not a folder")
 
 
 def _engine_ready() -> None:
@@ -297,6 +330,7 @@ def cmd_compare(args) -> int:
     from .io.files import write_atomic
     from .report import compare_markdown, compare_to_dict, render_compare
 
+    _folder_option(args.plots, "--plots")
     if args.plots:
         from .report.plots import require_matplotlib
 
@@ -350,6 +384,7 @@ def cmd_spread(args) -> int:
     from .spread.tolerance import mains_band_spreads
 
     design = load_design(args.design)
+    _folder_option(args.plots, "--plots")
     if args.plots:
         from .report.plots import require_matplotlib
 
@@ -409,6 +444,7 @@ def cmd_line(args) -> int:
     from .product_line import run_line
     from .report.line import line_figures, line_markdown, line_tables, line_to_dict, render_line
 
+    _folder_option(args.plots, "--plots")
     if args.plots:
         from .report.plots import require_matplotlib
 
@@ -503,17 +539,25 @@ _EPILOGS = {
 
 _EXIT_CODES = """exit status:
   0 done; 1 a check failed (only with --strict); 2 bad input (one line names the
-  file and key); 3 the solver refused (with the physical reason); 130 interrupted
+  file and key); 3 the solver refused (with the physical reason); 4 an internal
+  error (run with --debug for the traceback); 130 interrupted; 141 the reader of
+  the output stopped early (| head)
 """
 
-_WIDTH_HELP = "width of the printed screen in columns (default: the terminal's)"
+_WIDTH_HELP = (f"width of the printed screen in columns, {WIDTH_MIN}..{WIDTH_MAX} "
+               "(default: the terminal's)")
+_DEBUG_HELP = "on an error, print Python's traceback too (for reporting a fault)"
 _STRICT_HELP = "exit 1 when a check fails (limits, stresses, conductors), for scripts"
 
 
 def _verb(sub, name: str, help_text: str) -> argparse.ArgumentParser:
-    return sub.add_parser(name, help=help_text, description=help_text[:1].upper() + help_text[1:]
-                          + ".", epilog=_EPILOGS[name] + "\n" + _EXIT_CODES,
-                          formatter_class=argparse.RawDescriptionHelpFormatter)
+    p = sub.add_parser(name, help=help_text, description=help_text[:1].upper() + help_text[1:]
+                       + ".", epilog=_EPILOGS[name] + "\n" + _EXIT_CODES,
+                       formatter_class=argparse.RawDescriptionHelpFormatter)
+    # after the verb too; SUPPRESS keeps a `fleetpower --debug VERB` from being reset
+    p.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
+                   help=_DEBUG_HELP)
+    return p
 
 
 def _add_outputs(p) -> None:
@@ -521,7 +565,7 @@ def _add_outputs(p) -> None:
     p.add_argument("--csv", metavar="DIR", help="write per-design and per-group tables here")
     p.add_argument("--markdown", metavar="FILE", help="write a report for a tender file")
     p.add_argument("--plots", metavar="DIR", help="write figures (needs fleetpower[plot])")
-    p.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    p.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     p.add_argument("--strict", action="store_true",
                    help="exit 1 when no candidate is free of failed checks, for scripts")
 
@@ -537,6 +581,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("--version", action="version", version=f"fleetpower {__version__}",
                    help="print the version and exit")
+    p.add_argument("--debug", action="store_true", help=_DEBUG_HELP)
     sub = p.add_subparsers(dest="command", required=True, metavar="VERB")
     u = _verb(sub, "unit", "simulate one supply to periodic steady state")
     u.add_argument("design", help="design file (TOML)")
@@ -544,7 +589,7 @@ def build_parser() -> argparse.ArgumentParser:
     u.add_argument("--json", action="store_true", help="print one JSON object instead")
     u.add_argument("--limits", metavar="FILE",
                    help="an extra limit-set file (CSV) to check against")
-    u.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    u.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     u.add_argument("--strict", action="store_true", help=_STRICT_HELP)
     u.add_argument("--waveform-csv", metavar="FILE",
                    help="write each state's waveform (one cycle repeated over the IEC "
@@ -555,7 +600,7 @@ def build_parser() -> argparse.ArgumentParser:
     fl.add_argument("fleet", help="fleet file (TOML)")
     fl.add_argument("--json", action="store_true", help="print one JSON object instead")
     fl.add_argument("--csv", metavar="OUT", help="write the per-group table to this CSV file")
-    fl.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    fl.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     fl.add_argument("--strict", action="store_true", help=_STRICT_HELP)
     fl.add_argument("--at", metavar="P95",
                     help="each design enters as the unit at this percentile of its own "
@@ -604,7 +649,7 @@ def build_parser() -> argparse.ArgumentParser:
                     help="skip the limit sets per unit (stresses and regulation still checked)")
     sp.add_argument("--plots", metavar="DIR", help="write percentile plots (fleetpower[plot])")
     sp.add_argument("--json", action="store_true", help="print one JSON object instead")
-    sp.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    sp.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     sp.set_defaults(func=cmd_spread)
     ln = _verb(sub, "line", "a product line: every model on every market's mains and rules")
     ln.add_argument("line", help="product-line file (TOML)")
@@ -615,7 +660,7 @@ def build_parser() -> argparse.ArgumentParser:
     ln.add_argument("--plots", metavar="DIR",
                     help="write the headroom matrix and installed-base energy figures "
                          "(needs fleetpower[plot])")
-    ln.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    ln.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     ln.add_argument("--strict", action="store_true",
                     help="exit 1 when any model x market pair fails a check, for scripts")
     ln.set_defaults(func=cmd_line)
@@ -625,25 +670,54 @@ def build_parser() -> argparse.ArgumentParser:
     lim = _verb(sub, "limits", "list the shipped limit sets, or show one")
     lim.add_argument("set", nargs="?", help="a set id, or a limit file (CSV) to check")
     lim.add_argument("--json", action="store_true", help="print JSON records instead")
-    lim.add_argument("--width", type=int, metavar="N", help=_WIDTH_HELP)
+    lim.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     lim.set_defaults(func=cmd_limits)
     return p
 
 
+def _quiet_stdout() -> None:
+    """Point the process's stdout at the null device, so that the interpreter's last
+    flush of what is still buffered cannot fail a second time (a closed pipe)."""
+    try:
+        fd = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(fd, sys.stdout.fileno())
+        os.close(fd)
+    except (AttributeError, OSError, ValueError):  # stdout without a file descriptor
+        pass
+
+
+def _fail(args, code: int, line: str) -> int:
+    """One line on stderr (and, with --debug, the traceback above it); ``code``."""
+    if getattr(args, "debug", False):
+        import traceback
+
+        traceback.print_exc(file=sys.stderr)
+    print(f"fleetpower: {line}", file=sys.stderr)
+    return code
+
+
 def main(argv: list[str] | None = None) -> int:
+    """Parse ``argv``, run the verb and return the exit status; never a traceback unless
+    ``--debug`` asks for one."""
     parser = build_parser()
     args = parser.parse_args(argv)
     try:
         return args.func(args)
     except InputError as exc:
-        print(f"fleetpower: {exc.one_line()}", file=sys.stderr)
-        return EXIT_INPUT
+        return _fail(args, EXIT_INPUT, exc.one_line())
     except SolverError as exc:
-        print(f"fleetpower: solver: {exc}", file=sys.stderr)
-        return EXIT_SOLVER
+        return _fail(args, EXIT_SOLVER, f"solver: {printable(str(exc))}")
     except FleetpowerError as exc:  # pragma: no cover - defensive
-        print(f"fleetpower: {exc}", file=sys.stderr)
-        return EXIT_INPUT
+        return _fail(args, EXIT_INPUT, printable(str(exc)))
+    except KeyboardInterrupt:
+        return _fail(args, EXIT_INTERRUPTED, "interrupted")
+    except BrokenPipeError:  # the reader went away (`| head`): nothing more to say
+        _quiet_stdout()
+        return EXIT_CLOSED_PIPE
+    except Exception as exc:  # a fault of the program: one line, the traceback on --debug
+        what = type(exc).__name__ + (f": {printable(str(exc))[:300]}" if str(exc) else "")
+        return _fail(args, EXIT_INTERNAL,
+                     f"internal error: {what} (run with --debug for the traceback)")
 
 
 def run() -> None:  # pragma: no cover - the console script; exits the process

@@ -104,3 +104,56 @@ def test_quick_limit_listing_agrees_with_the_validated_tables():
     from fleetpower.limits.catalogue import set_summaries
 
     assert set_summaries() == list_limit_sets().to_dict("records")
+
+
+# ----------------------------------------------------------------------------------------
+# interruption and faults of the program itself (README "Exit status"; exit 4 and the
+# --debug option are the project's own convention)
+# ----------------------------------------------------------------------------------------
+def _raising(exc):
+    def cmd(args):
+        raise exc
+
+    return cmd
+
+
+def test_ctrl_c_is_one_line_and_exit_130(monkeypatch):
+    from fleetpower import cli
+
+    monkeypatch.setattr(cli, "cmd_limits", _raising(KeyboardInterrupt()))
+    code, out, err = _run("limits")
+    assert code == cli.EXIT_INTERRUPTED == 130
+    assert err.strip().splitlines() == ["fleetpower: interrupted"] and out == ""
+
+
+def test_internal_error_is_one_line_and_debug_shows_the_traceback(monkeypatch):
+    from fleetpower import cli
+
+    monkeypatch.setattr(cli, "cmd_limits", _raising(RuntimeError("table\nbroken")))
+    code, out, err = _run("limits")
+    assert code == cli.EXIT_INTERNAL == 4 and out == ""
+    lines = err.strip().splitlines()
+    assert lines == ["fleetpower: internal error: RuntimeError: table\\nbroken "
+                     "(run with --debug for the traceback)"], err
+    assert "Traceback" not in err
+    for argv in (("--debug", "limits"), ("limits", "--debug")):  # before or after the verb
+        code, _, err = _run(*argv)
+        assert code == 4
+        assert "Traceback (most recent call last)" in err and "RuntimeError: table" in err
+        assert err.strip().splitlines()[-1].startswith("fleetpower: internal error: ")
+
+
+def test_debug_is_off_by_default_and_input_errors_stay_one_line(tmp_path):
+    assert build_parser().parse_args(["limits"]).debug is False
+    assert build_parser().parse_args(["--debug", "limits"]).debug is True
+    code, _, err = _run("limits", tmp_path / "missing.csv")
+    assert code == 2 and len(err.strip().splitlines()) == 1 and "Traceback" not in err
+
+
+def test_plots_onto_a_file_is_refused_before_solving(tmp_path):
+    taken = tmp_path / "figs"
+    taken.write_text("a file", encoding="utf-8")
+    code, out, err = _run("spread", example_path("desk-sensor-dropper-lean"), "--plots", taken)
+    assert code == 2 and out == ""
+    assert err.strip().splitlines() == [f"fleetpower: {taken}: --plots: exists and is not "
+                                        "a folder"]
