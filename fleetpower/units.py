@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+import math
 import re
 
 from .errors import InputError
@@ -64,14 +65,18 @@ def parse_quantity(text, dimension: str, *, file: str = "<input>", key: str = ""
     if not isinstance(text, str):
         raise InputError(file, key, f"{text!r} has no unit; write it as \"{text} {si}\"")
     cleaned = text.strip().replace("µ", "u").replace("μ", "u").replace("Ω", "ohm")
+    _check_bounded(cleaned, text, dimension, file, key)
     quick = _plain_si(cleaned, dimension)
     if quick is not None:
-        return quick
+        return _in_range(quick, text, dimension, si, file, key)
     import pint
 
     ureg = registry()
     try:
         q = ureg.Quantity(cleaned)
+    except OverflowError:
+        raise InputError(file, key, f"{text!r} overflows: the magnitude is out of range "
+                         f"for a {dimension}") from None
     except Exception as exc:  # pint raises several unrelated types here
         raise InputError(file, key, f"cannot read {text!r} as a {dimension}: {exc}") from None
     if not isinstance(q, pint.Quantity) or q.dimensionless:
@@ -80,7 +85,55 @@ def parse_quantity(text, dimension: str, *, file: str = "<input>", key: str = ""
         raise InputError(
             file, key, f"{text!r} is not a {dimension} (it has units of {q.units:~})"
         )
-    value = float(q.to(si).magnitude)
+    try:
+        value = float(q.to(si).magnitude)
+    except OverflowError:
+        value = math.inf
+    return _in_range(value, text, dimension, si, file, key)
+
+
+# ----------------------------------------------------------------------------------
+# Bounds checked before pint sees a string: pint evaluates arithmetic in a unit string
+# with Python integers, so "2**99999999 uF" would never end, and its tokenizer is slow on
+# very long strings. No value a designer types needs more than these.
+# ----------------------------------------------------------------------------------
+#: Longest unit string read [characters]
+MAX_QUANTITY_CHARS = 100
+#: Largest literal exponent allowed after ``**`` or ``^`` (absolute value)
+MAX_POWER_EXPONENT = 20
+#: Most power operators in one string
+MAX_POWER_OPERATORS = 3
+#: Range of a non-zero magnitude in SI units [SI unit of the dimension]
+MIN_MAGNITUDE_SI = 1e-15
+MAX_MAGNITUDE_SI = 1e15
+
+_POWER = re.compile(r"(\*\*|\^)\s*")
+_SMALL_EXPONENT = re.compile(r"\(?\s*[+-]?(\d{1,2})(?:\.\d{1,3})?\s*\)?(?!\s*(?:[\d.(]|\*\*|\^))")
+
+
+def _check_bounded(cleaned: str, text: str, dimension: str, file: str, key: str) -> None:
+    """Refuse a string too long, or with powers other than a few small literals."""
+    if len(cleaned) > MAX_QUANTITY_CHARS:
+        raise InputError(file, key, f"a {dimension} of {len(cleaned)} characters is too long "
+                         f"(at most {MAX_QUANTITY_CHARS})")
+    powers = list(_POWER.finditer(cleaned))
+    if len(powers) > MAX_POWER_OPERATORS:
+        raise InputError(file, key, f"{text!r}: at most {MAX_POWER_OPERATORS} powers "
+                         "('**' or '^') in one value")
+    for m in powers:
+        e = _SMALL_EXPONENT.match(cleaned, m.end())
+        if e is None or int(e.group(1)) > MAX_POWER_EXPONENT:
+            raise InputError(file, key, f"{text!r}: a power ('**' or '^') takes a plain number "
+                             f"from -{MAX_POWER_EXPONENT} to {MAX_POWER_EXPONENT}")
+
+
+def _in_range(value: float, text: str, dimension: str, si: str, file: str, key: str) -> float:
+    """``value`` when finite and zero or within the magnitude bounds, else InputError."""
+    if not math.isfinite(value):
+        raise InputError(file, key, f"{text!r} is not a finite {dimension}")
+    if value != 0.0 and not MIN_MAGNITUDE_SI <= abs(value) <= MAX_MAGNITUDE_SI:
+        raise InputError(file, key, f"{text!r} ({value:.3g} {si}) is outside the range "
+                         f"{MIN_MAGNITUDE_SI:g} to {MAX_MAGNITUDE_SI:g} {si}")
     return value
 
 

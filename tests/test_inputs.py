@@ -336,7 +336,9 @@ UNITS = {
 
 @settings(max_examples=300, deadline=None)
 @given(
-    magnitude=st.floats(min_value=1e-6, max_value=1e9, allow_nan=False, allow_infinity=False),
+    # kept inside the documented bounds (1e-15..1e15 SI, README "Input bounds") with
+    # every prefix, with a margin for rounding: 2e-3 pA and 5e5 MW
+    magnitude=st.floats(min_value=2e-3, max_value=5e5, allow_nan=False, allow_infinity=False),
     prefix=st.sampled_from(sorted(PREFIX)),
     unit=st.sampled_from(sorted(UNITS)),
     space=st.sampled_from([" ", ""]),
@@ -346,3 +348,17 @@ def test_parse_quantity_applies_si_prefix(magnitude, prefix, unit, space):
     value = parse_quantity(text, UNITS[unit])
     expected = magnitude * PREFIX[prefix]
     assert math.isclose(value, expected, rel_tol=1e-12), (text, value, expected)
+
+
+@pytest.mark.parametrize("text", ["1e-16 F", "2e15 V", "0.5 fF", "1e400 uF", "inf V"])
+def test_parse_quantity_refuses_magnitudes_outside_the_bounds(text):
+    """Outside 1e-15..1e15 SI or non-finite: refused naming the key (README "Input bounds")."""
+    dim = "capacitance" if text.endswith("F") else "voltage"
+    with pytest.raises(InputError, match="k.x"):
+        parse_quantity(text, dim, file="f.toml", key="k.x")
+
+
+@pytest.mark.parametrize("text", ["0 V", "1e-15 F", "1e15 ohm", "3 m**2*kg/s**3/A", "2**-2 V"])
+def test_parse_quantity_accepts_values_inside_the_bounds(text):
+    dim = {"V": "voltage", "F": "capacitance", "m": "resistance", "A": "voltage"}[text[-1]]
+    assert math.isfinite(parse_quantity(text, dim))
