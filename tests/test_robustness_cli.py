@@ -63,8 +63,6 @@ CASE_LIMIT_S = float(os.environ.get("FLEETPOWER_FUZZ_CASE_S", "20"))
 #: an expected failure and keeps that input kind out of the generic properties.
 OPEN: dict[str, str] = {
     "F3": "odd paths (directory, FIFO, /dev/zero, too long, NUL byte) crash or hang",
-    "F9": "group counts so large that sums overflow: RuntimeWarnings, then a message that "
-          "blames the program",
     "F12": "physically absurd but parseable input simulated without a word",
 }
 

@@ -11,6 +11,7 @@ nothing that simulates or evaluates.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -111,9 +112,22 @@ def _unknown(file, where, data, known):
             raise InputError(file, f"{where}{k}", f"unknown key{suggest(k, known)}")
 
 
-def _number(file, key, value, *, lo=None, positive=False, integer=False):
+#: the most units one group or inventory row may hold: beyond any real deployment, and far
+#: below where fleet sums would lose precision or overflow
+MAX_GROUP_COUNT = 10**9
+
+
+def _number(file, key, value, *, lo=None, hi=None, positive=False, integer=False):
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise InputError(file, key, f"expected a number, got {value!r}")
+    try:
+        finite = math.isfinite(float(value))
+    except OverflowError:
+        finite = False
+    if not finite:
+        raise InputError(file, key, "must be a finite number of ordinary size")
+    if hi is not None and value > hi:
+        raise InputError(file, key, f"must be at most {hi:,}, got {float(value):.3g}")
     if integer and (not float(value).is_integer()):
         raise InputError(file, key, f"must be a whole number, got {value!r}")
     if positive and value <= 0:
@@ -272,7 +286,8 @@ def _group(file, where, g: dict, base: Path, site: Site, cache: dict, index: int
         if k not in g:
             raise InputError(file, f"{where}{k}", "missing key")
     path, design = _design(file, where, g["design"], base, site, cache)
-    count = _number(file, f"{where}count", g["count"], positive=True, integer=True)
+    count = _number(file, f"{where}count", g["count"], positive=True, integer=True,
+                    hi=MAX_GROUP_COUNT)
     phase = g["phase"]
     allowed = cache.get("phases")
     if allowed is None:
