@@ -19,6 +19,7 @@ from .economics import life_problem, rate_problem
 from .errors import InputError
 from .fleet import FleetResult, evaluate_fleet, unit_catalogue
 from .io.design_file import Design, load_design
+from .io.files import check_path
 from .io.fleet_file import FleetSpec, load_fleet
 from .limits.applicability import lightest_state, rated_state
 from .unit import UnitAnalysis, analyse_unit
@@ -242,7 +243,7 @@ def compare(
     candidates = []
     seen = set()
     for k, dp in enumerate(design_paths):
-        path = Path(dp).resolve()
+        path = Path(check_path(dp, "--design")).resolve()
         if path in seen:
             raise InputError(str(dp), "--design", "named twice")
         seen.add(path)

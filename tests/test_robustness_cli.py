@@ -62,7 +62,6 @@ CASE_LIMIT_S = float(os.environ.get("FLEETPOWER_FUZZ_CASE_S", "20"))
 #: Findings still open (id -> what goes wrong). An id here turns its focused property into
 #: an expected failure and keeps that input kind out of the generic properties.
 OPEN: dict[str, str] = {
-    "F3": "odd paths (directory, FIFO, /dev/zero, too long, NUL byte) crash or hang",
     "F12": "physically absurd but parseable input simulated without a word",
 }
 

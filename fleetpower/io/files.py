@@ -41,6 +41,21 @@ MAX_PATH_CHARS = 1024
 MAX_READ_BYTES = 4 * 1024 * 1024
 
 
+def check_path(path: str | Path, key: str = "") -> str:
+    """``path`` as text, refused (naming it) when it holds a NUL byte or is too long.
+
+    Called before any file-system call on a user's path, which would otherwise raise
+    ``ValueError`` (NUL) or ``OSError`` (name too long) from deep inside the library.
+    """
+    file = str(path)
+    if "\x00" in file:
+        raise InputError(file, key, "a path cannot contain a NUL byte")
+    if len(file) > MAX_PATH_CHARS:
+        raise InputError(file[:60] + "...", key, f"path of {len(file)} characters is too "
+                         f"long (at most {MAX_PATH_CHARS})")
+    return file
+
+
 def read_text_bounded(path: str | Path) -> str:
     """A regular file's UTF-8 text, bounded: the path checked and stat'ed before opening.
 
@@ -53,12 +68,7 @@ def read_text_bounded(path: str | Path) -> str:
     """
     import stat
 
-    file = str(path)
-    if "\x00" in file:
-        raise InputError(file, "", "a path cannot contain a NUL byte")
-    if len(file) > MAX_PATH_CHARS:
-        raise InputError(file[:60] + "...", "", f"path of {len(file)} characters is too long "
-                         f"(at most {MAX_PATH_CHARS})")
+    file = check_path(path)
     try:
         st = os.stat(file)
     except FileNotFoundError:

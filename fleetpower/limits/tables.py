@@ -33,6 +33,7 @@ import pandas as pd
 
 from .._resources import data_dir
 from ..errors import FleetpowerError, InputError, suggest
+from ..io.files import check_path
 from .catalogue import SCOPE_FILE
 
 #: Columns a limit file must have.
@@ -457,9 +458,13 @@ def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
     Format: ``data/limits/README.md`` (this project).
     """
     text = str(path_or_name)
-    path = Path(text)
-    if path.suffix.lower() == ".csv" or path.is_file():
-        if not path.is_file():
+    path = Path(check_path(text))
+    try:
+        is_file = path.is_file()
+    except OSError as exc:  # e.g. a path component longer than the file system allows
+        raise InputError(text[:60], "", f"cannot read: {exc.strerror or exc}") from None
+    if path.suffix.lower() == ".csv" or is_file:
+        if not is_file:
             raise InputError(text, "", "limit file not found")
         return _read_table(path)
     # a spread run evaluates every unit against the same sets: select each set once
@@ -533,8 +538,8 @@ def limit_records(set_or_df: str | Path | pd.DataFrame) -> list[dict]:
     if isinstance(set_or_df, pd.DataFrame):
         return set_or_df.to_dict("records")
     text = str(set_or_df)
-    path = Path(text)
-    if path.suffix.lower() == ".csv" or path.is_file():
+    path = Path(check_path(text))
+    if path.suffix.lower() == ".csv" or len(text) > 255 or path.is_file():
         return load_limit_set(path).to_dict("records")
     recs = _records_cached(text, str(limits_dir()), _stamp())
     if not recs:
