@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 from . import economics as E
@@ -265,7 +266,12 @@ def compare(
                              "be compared over its life")
         purchase = price * replaced
         annual = result.total_cost_per_year
-        life = E.lifetime_cost(purchase, annual, rate, years, esc)
+        with np.errstate(over="ignore", invalid="ignore"):
+            life = E.lifetime_cost(purchase, annual, rate, years, esc)
+        if not np.isfinite(life["cost_cumulative_discounted"].to_numpy(dtype=float)).all():
+            raise InputError(str(fleet_path), "--rate", f"discounting at {rate:.1%} a year with "
+                             f"energy {esc:+.1%} a year over {years} years gives a present "
+                             "worth too large to represent; check the rates and the life")
         candidates.append(Candidate(
             label=path.stem, path=path, design=on_site, unit=unit, unit_compliance=uc,
             fleet=result, replaced_units=replaced, purchase_cost=purchase,
