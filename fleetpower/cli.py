@@ -13,7 +13,7 @@ from rich.console import Console
 
 from . import __version__
 from .errors import FleetpowerError, InputError, SolverError, printable
-from .report.format import QUANTITY_LABELS, quantity_label, si_text  # noqa: F401 (re-exported)
+from .report.format import QUANTITY_LABELS, quantity_label, si_text, use_unicode  # noqa: F401 (re-exported)
 
 EXIT_OK = 0
 EXIT_VERDICT = 1  # only with --strict: a check failed
@@ -37,7 +37,10 @@ class _Screen(Console):
 
 
 def _console(args) -> Console:
-    return _Screen(width=getattr(args, "width", None) or None, highlight=False)
+    screen = _Screen(width=getattr(args, "width", None) or None, highlight=False)
+    # µ and Ω where the output can encode them (a UTF-8 terminal or file), u and ohm otherwise
+    use_unicode(screen.encoding.lower().replace("-", "").startswith("utf"))
+    return screen
 
 
 def _status(message: str):

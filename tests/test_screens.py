@@ -27,7 +27,16 @@ GOLDEN = Path(__file__).parent / "golden"
 #: internal quantity keys (<quantity>_<unit>) that must not reach a person's screen
 KEY = re.compile(r"\b[a-z0-9]+(?:_[a-z0-9]+)*_(?:p_w|pct|a|v|va|var|frac|kwh|w|s|ohm)\b")
 #: a plain figure with too many zeros: 0.000xxx W, 15000.0 ohm
-UNPREFIXED = re.compile(r"(?<![\w.])(?:0\.000\d+|\d{4,}(?:\.\d+)?) (?:W|V|A|VA|var|F|ohm|s)\b")
+UNPREFIXED = re.compile(r"(?<![\w.])(?:0\.000\d+|\d{4,}(?:\.\d+)?) (?:W|V|A|VA|var|F|ohm|Ω|s)(?!\w)")
+
+
+@pytest.fixture(autouse=True)
+def _unicode_symbols():
+    """µ and Ω, whatever an earlier in-process CLI run decided for its console."""
+    from fleetpower.report.format import use_unicode
+
+    use_unicode(True)
+    yield
 
 
 def _render(fn, d: dict, width: int) -> str:
@@ -80,8 +89,8 @@ def test_unit_screen_known_figures():
     assert fmt(s["i_rms_a"], 4, "A").endswith(" mA") and fmt(s["i_rms_a"], 4, "A") in text
     assert fmt(s["p_w"], 4, "W").endswith(" mW") and fmt(s["p_w"], 4, "W") in text
     assert "standby power" in text and "standby_p_w" not in text
-    # the stress note "series resistance 47.0 ohm" (shared with --json) reads as 47 ohm
-    assert "47 ohm" in text and "47.0 ohm" not in text
+    # the stress note "series resistance 47.0 ohm" (shared with --json) reads as 47 Ω
+    assert "47 Ω" in text and "47.0 ohm" not in text
 
 
 def test_line_screen():
@@ -116,8 +125,9 @@ def test_spread_screen():
 
 
 @pytest.mark.parametrize("value, digits, unit, text", [
-    (0.0000910, 3, "W", "91.0 uW"),     # the issue's example: not 0.0000910 W
-    (15000.0, 3, "ohm", "15.0 kohm"),   # not 15000.0 ohm
+    (0.0000910, 3, "W", "91.0 µW"),     # the issue's example: not 0.0000910 W
+    (15000.0, 3, "ohm", "15.0 kΩ"),     # not 15000.0 ohm
+    (2.2e-6, 2, "F", "2.2 µF"),
     (0.0254, 3, "V", "25.4 mV"),
     (0.36, 3, "V p-p", "360 mV p-p"),   # the prefix goes on the unit's first word
     (12882.0, 3, "A", "12.9 kA"),
@@ -137,5 +147,37 @@ def test_labels_and_sentences():
     assert key_label_unit("loss_zener_w") == ("loss: zener", "W")
     assert key_label_unit("thd_i_pct") == ("current THD", "%")
     assert humanize("eu-2023-826-standby standby_p_w") == "eu-2023-826-standby standby power"
-    assert humanize("series resistance 15000.0 ohm") == "series resistance 15 kohm"
+    assert humanize("series resistance 15000.0 ohm") == "series resistance 15 kΩ"
+    assert humanize("10-30 ohm pulse-rated") == "10-30 Ω pulse-rated"
     assert humanize("1e-05 W and -0.065 W") == "1e-05 W and -65 mW"  # exponents left alone
+
+
+def test_ascii_symbols():
+    """An output that cannot encode µ and Ω gets u and ohm (the CLI decides per console)."""
+    from fleetpower.report.format import use_unicode
+
+    use_unicode(False)
+    try:
+        assert fmt(0.0000910, 3, "W") == "91.0 uW" and fmt(15000.0, 3, "ohm") == "15.0 kohm"
+        assert humanize("series resistance 22.0 ohm") == "series resistance 22 ohm"
+    finally:
+        use_unicode(True)
+    assert fmt(15000.0, 3, "ohm") == "15.0 kΩ"
+
+
+@pytest.mark.parametrize("stem", _golden("unit"))
+def test_compliance_reasons_whole_at_80(stem):
+    """At 80 columns a limit row's clause or reason is printed whole under its table: every
+    word of it appears unbroken in the screen (a narrow column used to cut words such as
+    "line-to-neutral" in two)."""
+    from fleetpower.report.format import humanize as readable
+
+    d = _dict(stem)
+    text = _render(render_unit, d, 80)
+    words = set(re.findall(r"\S+", text))
+    for r in d.get("compliance", []):
+        in_scope = r.get("scope", "in scope") == "in scope"
+        why = r.get("reason") or (r.get("clause", "") if in_scope else "")
+        for w in readable(why).split():
+            if len(w) >= 6:
+                assert w in words, (w, why)

@@ -50,8 +50,8 @@ def test_limit_listing_screen(width):
 
 
 @pytest.mark.parametrize("value, unit, text", [
-    (0.0000910, "W", "91 uW"),     # the example: not 0.0000910 W
-    (15000.0, "ohm", "15 kohm"),   # not 15000.0 ohm
+    (0.0000910, "W", "91 µW"),     # the example: not 0.0000910 W
+    (15000.0, "ohm", "15 kΩ"),     # not 15000.0 ohm
     (0.0254, "V", "25.4 mV"),
     (1e-7, "F", "100 nF"),
     (999.9, "V", "1 kV"),          # rounded before the prefix is chosen

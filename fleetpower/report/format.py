@@ -1,13 +1,18 @@
 """How figures and quantity names read on a screen or in Markdown (never in ``--json``).
 
 - :func:`fmt`: a figure with fixed significant figures, an SI prefix on SI units (0.0000910 W
-  -> ``91.0 uW``, 15000 ohm -> ``15.0 kohm``) and thousands separators everywhere
+  -> ``91.0 µW``, 15000 ohm -> ``15.0 kΩ``) and thousands separators everywhere
   (``26,403 kWh``, ``3,640 units``);
 - :func:`si_text`: the same with trailing zeros dropped (limit tables: ``100 nF``);
 - :func:`quantity_label`: a person's name for a quantity key (``standby_p_w`` -> "standby
   power"); the key itself stays in ``--json``;
 - :func:`humanize`: a sentence shared with ``--json`` (failures, stress notes, reasons) made
-  readable: keys replaced by their labels, "15000.0 ohm" by "15 kohm".
+  readable: keys replaced by their labels, "15000.0 ohm" by "15 kΩ".
+
+Symbols: the micro sign and the ohm sign as the SI Brochure writes them (µ, Ω) on screens and
+in Markdown; :func:`use_unicode` (False) turns them into ASCII ``u`` and ``ohm`` for an
+output that cannot encode them (the CLI decides from its console's encoding). Inputs
+(design files) accept both spellings; ``--json`` keeps keys and plain numbers.
 
 Owns: the number format and the labels of every rendering. Imports nothing of fleetpower (the
 quick ``limits`` listing uses it without numpy or pandas).
@@ -22,6 +27,21 @@ import re
 SI_UNITS = ("V", "A", "W", "VA", "var", "F", "H", "Hz", "s", "J", "ohm")
 _SI_PREFIXES = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
                 (1e-9, "n"), (1e-12, "p"))
+#: how the micro prefix and the ohm read: (micro, ohm); see :func:`use_unicode`
+_SYMBOLS = {True: ("µ", "Ω"), False: ("u", "ohm")}
+_symbols = _SYMBOLS[True]
+
+
+def use_unicode(on: bool = True) -> None:
+    """Write the micro sign and the ohm sign as µ and Ω (default) or as ASCII u and ohm."""
+    global _symbols
+    _symbols = _SYMBOLS[bool(on)]
+
+
+def _shown(prefix: str, unit: str) -> str:
+    """A prefixed SI unit as it reads: ("u", "ohm") -> "µΩ" (or "uohm" in ASCII)."""
+    micro, ohm = _symbols
+    return (micro if prefix == "u" else prefix) + (ohm if unit == "ohm" else unit)
 
 #: a person's name for each quantity key met in limit tables, compliance rows and sentences
 QUANTITY_LABELS = {
@@ -77,7 +97,7 @@ def fmt(x: float | None, digits: int = 3, unit: str = "") -> str:
     head, _, tail = unit.partition(" ")
     if head in SI_UNITS:
         x, prefix = _prefixed(x, digits)
-        unit = prefix + head + (f" {tail}" if tail else "")
+        unit = _shown(prefix, head) + (f" {tail}" if tail else "")
     mag = math.floor(math.log10(abs(x)))
     dec = max(digits - 1 - mag, 0)
     return f"{x:,.{dec}f} {unit}".rstrip()
@@ -92,9 +112,9 @@ def si_text(value: float, unit: str, digits: int = 3) -> str:
     if value != value:
         return ""
     if unit not in SI_UNITS or value == 0:
-        return f"{value:.{digits}g} {unit}".strip()
+        return f"{value:.{digits}g} {_shown('', unit) if unit in SI_UNITS else unit}".strip()
     scaled, prefix = _prefixed(value, digits)
-    return f"{scaled:.{digits}g} {prefix}{unit}"
+    return f"{scaled:.{digits}g} {_shown(prefix, unit)}"
 
 
 def quantity_label(key: str, order: bool = False) -> str:
@@ -120,9 +140,13 @@ _FIGURE = re.compile(r"(?<![\w.\-])(-?\d+(?:\.\d+)?) (" + "|".join(
 def humanize(text: str) -> str:
     """A sentence shared with ``--json`` made readable: quantity keys replaced by their
     labels, plain SI figures given a prefix ("series resistance 15000.0 ohm" -> "series
-    resistance 15 kohm")."""
+    resistance 15 kΩ"; a range "10-30 ohm" -> "10-30 Ω")."""
     text = _KEY.sub(lambda m: quantity_label(m.group(0), order=True), text)
-    return _FIGURE.sub(lambda m: si_text(float(m.group(1)), m.group(2)), text)
+    text = _FIGURE.sub(lambda m: si_text(float(m.group(1)), m.group(2)), text)
+    return _OHM_AFTER_FIGURE.sub(" " + _symbols[1], text)
+
+
+_OHM_AFTER_FIGURE = re.compile(r"(?<=\d) ohm\b")
 
 
 
@@ -144,5 +168,5 @@ def key_label_unit(key: str) -> tuple[str, str]:
     return stem.replace("_", " ").strip(), unit
 
 
-__all__ = ["fmt", "si_text", "quantity_label", "humanize", "key_label_unit", "QUANTITY_LABELS",
+__all__ = ["fmt", "si_text", "use_unicode", "quantity_label", "humanize", "key_label_unit", "QUANTITY_LABELS",
            "SI_UNITS"]

@@ -61,8 +61,8 @@ def _state_table(states: list[dict]) -> Table:
 
 
 def _harmonic_table(state: dict, width: int = 120) -> Table:
-    t = Table(box=box.SIMPLE_HEAD, title=f"Harmonic currents, state '{state['state']}' "
-              "(rms; % of I1; phase vs V1)", title_justify="left", pad_edge=False)
+    t = Table(box=box.SIMPLE_HEAD, title=f"Harmonic currents, state '{state['state']}'",
+              title_justify="left", pad_edge=False)
     groups = 3 if width >= 100 else 2  # 12 columns do not fit 80 without cutting cells
     for _ in range(groups):
         t.add_column("h", justify="right", style="bold")
@@ -82,7 +82,9 @@ def _harmonic_table(state: dict, width: int = 120) -> Table:
             else:
                 cells += ["", "", "", ""]
         t.add_row(*cells)
-    t.caption = "even orders below 0.5 % of I1 not shown; all 50 orders are in --json"
+    t.caption = ("rms current, % of I1, phase against V1 in degrees; even orders below "
+                 "0.5 % of I1 not shown; all 50 orders are in --json")
+    t.caption_justify = "left"
     return t
 
 
@@ -138,12 +140,22 @@ def _stress_table(stresses: list[dict]) -> Table:
     return t
 
 
-def _compliance_tables(rows: list[dict]) -> list:
-    """One small table per limit set (its id and edition as the title), then a caption."""
+#: narrower than this, a limit row's clause or reason moves out of the table into a numbered
+#: note under it (a column of 14 characters breaks words such as "line-to-neutral")
+NOTES_BELOW_WIDTH = 110
+
+
+def _compliance_tables(rows: list[dict], width: int = 120) -> list:
+    """One small table per limit set (its id and edition as the title), then a caption.
+
+    At widths under :data:`NOTES_BELOW_WIDTH` the clause or reason of each row is a note
+    ``[n]`` printed in full under its table (the same text once, however many rows cite it).
+    """
     out: list = [Text("Compliance with published limits", style="bold")]
     sets: dict[str, list[dict]] = {}
     for r in rows:
         sets.setdefault(r["set"], []).append(r)
+    below = width < NOTES_BELOW_WIDTH
     for name, group in sets.items():
         t = Table(box=box.SIMPLE_HEAD, title=f"{name}  ({group[0].get('edition', '')})",
                   title_justify="left", pad_edge=False)
@@ -153,7 +165,8 @@ def _compliance_tables(rows: list[dict]) -> list:
         t.add_column("used", justify="right")
         t.add_column("headroom", justify="right")
         t.add_column("verdict")
-        t.add_column("clause / reason", overflow="fold")
+        t.add_column("note" if below else "clause / reason", overflow="fold")
+        notes: list[str] = []
         for r in group:
             unit = "" if r.get("unit") in ("1", "-") else r.get("unit", "")
             used = "" if r.get("used_pct") is None else f"{r['used_pct']:.0f} %"
@@ -161,11 +174,24 @@ def _compliance_tables(rows: list[dict]) -> list:
             why = r.get("reason") or r.get("clause", "")
             if scope != "in scope":
                 why = scope + (f"; {r['reason']}" if r.get("reason") else "")
+            why = humanize(why)
+            if below and why:
+                if why not in notes:
+                    notes.append(why)
+                why = f"[{notes.index(why) + 1}]"
             # out of scope: shown, dimmed, never as a pass or a failure
-            t.add_row(quantity_label(r["quantity"], order=True), fmt(r.get("value"), 3, unit), fmt(r.get("limit"), 3, unit),
-                      used, fmt(r.get("headroom"), 2, unit), _verdict(r["verdict"]), humanize(why),
+            t.add_row(quantity_label(r["quantity"], order=True), fmt(r.get("value"), 3, unit),
+                      fmt(r.get("limit"), 3, unit), used, fmt(r.get("headroom"), 2, unit),
+                      _verdict(r["verdict"]), why,
                       style="dim" if scope != "in scope" else None)
         out.append(t)
+        if notes:
+            grid = Table(box=None, show_header=False, pad_edge=False)
+            grid.add_column(justify="right", no_wrap=True)
+            grid.add_column(overflow="fold")
+            for k, note in enumerate(notes, 1):
+                grid.add_row(f"[{k}]", note)
+            out.append(grid)
     out.append(Text("Margins against the tables in data/limits/ (mostly from memory): an "
                     "engineering aid, not a certification; the standards' texts, local "
                     "codes and licensed practice govern.", style="dim"))
@@ -199,6 +225,13 @@ def render_unit(report: dict, console: Console) -> None:
                            f"{report['circuit_figures']}.", style="italic"))
     if "hand_estimate" in report:
         h = report["hand_estimate"]
+        why = Table(box=None, show_header=False, pad_edge=False)
+        why.add_column(no_wrap=True)
+        why.add_column(overflow="fold")
+        why.add_column(justify="right", no_wrap=True)
+        for line in h["explanation"]:
+            reason, _, figure = humanize(line).rpartition(": ")
+            why.add_row("  -", reason or figure, figure if reason else "")
         body = Group(
             Text(f"Xc = 1/(2 pi f C) = {fmt(h['xc_ohm'], 4, 'ohm')}; capacitor current "
                  f"V/Xc = {fmt(h['i_cap_rms_a'], 4, 'A')} rms"),
@@ -206,7 +239,7 @@ def render_unit(report: dict, console: Console) -> None:
             Text(f"largest load held in regulation (simulated): "
                  f"{fmt(h['simulated_max_i_dc_a'], 4, 'A')}", style="bold"),
             Text("why they differ:"),
-            *[Text(f"  - {humanize(line)}") for line in h["explanation"]],
+            why,
         )
         console.print(Panel(body, title="Deliverable DC current: quick estimate vs waveform",
                             box=box.ROUNDED, title_align="left"))
@@ -218,7 +251,7 @@ def render_unit(report: dict, console: Console) -> None:
     if report["stresses"] or "circuit_figures" not in report:
         console.print(_stress_table(report["stresses"]))
     if report.get("compliance"):
-        for part in _compliance_tables(report["compliance"]):
+        for part in _compliance_tables(report["compliance"], console.width):
             console.print(part)
     if report["warnings"]:
         console.print(Panel("\n".join(f"- {humanize(w)}" for w in report["warnings"]), title="Warnings",
