@@ -181,3 +181,11 @@ def test_compliance_reasons_whole_at_80(stem):
         for w in readable(why).split():
             if len(w) >= 6:
                 assert w in words, (w, why)
+
+
+def test_phase_warnings_said_once():
+    """The same warning for every phase reads once, naming the phases (a screen rule)."""
+    from fleetpower.report.terminal import _merge_phases
+
+    got = _merge_phases(["phase L1: K is low", "other", "phase L2: K is low", "phase L3: x"])
+    assert got == ["phases L1, L2: K is low", "other", "phase L3: x"]

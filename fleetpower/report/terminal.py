@@ -9,6 +9,7 @@ Owns: the layout of the terminal summaries of a unit, a fleet and a comparison. 
 from __future__ import annotations
 
 import math
+import re
 
 from rich import box
 from rich.console import Console, Group
@@ -285,7 +286,7 @@ def render_fleet(d: dict, console: Console) -> None:
     t.add_row("I fundamental", *[fmt(p["i1_a"], 3, "A") for p in d["phases"]],
               fmt(d["neutral"]["i1_a"], 3, "A"), "")
     t.add_row("THD of current", *[fmt(p["thd_i_pct"], 3, "%") for p in d["phases"]], "", "")
-    t.add_row(f"K-factor (h <= {d['phases'][0]['k_factor_h_max']})",
+    t.add_row(f"K-factor h1-{d['phases'][0]['k_factor_h_max']}",
               *[fmt(p["k_factor"], 3) for p in d["phases"]], "", "")
     t.add_row("F_HL", *[fmt(p["f_hl"], 3) for p in d["phases"]], "", "")
     console.print(t)
@@ -297,9 +298,14 @@ def render_fleet(d: dict, console: Console) -> None:
     console.print(Text(f"largest phase current {fmt(w['i_rms_a'], 3, 'A')} on {w['phase']} "
                        f"({w['case']}); neutral {fmt(d['neutral']['i_rms_max_a'], 3, 'A')} "
                        f"({d['neutral']['i_rms_max_case']})"))
-    console.print(Text(f"summation: {d['summation']}", style="dim"))
-    for what, basis in d["assumptions"].items():
-        console.print(Text(f"{what}: {basis}", style="dim"))
+    basis = Table(box=None, show_header=False, pad_edge=False, title="Basis of the figures",
+                  title_justify="left", title_style="dim", style="dim")
+    basis.add_column(no_wrap=True, style="dim")
+    basis.add_column(overflow="fold", style="dim")
+    basis.add_row("summation", d["summation"])
+    for what, text in d["assumptions"].items():
+        basis.add_row(what, text)
+    console.print(basis)
     y = Table(box=box.SIMPLE_HEAD, title="Per year", title_justify="left", pad_edge=False)
     y.add_column("")
     y.add_column("value", justify="right")
@@ -343,8 +349,30 @@ def render_fleet(d: dict, console: Console) -> None:
             f"{quantity_label(worst['quantity'], order=True)} on "
             f"{worst['phase']} {worst['used_pct']:.0f} % ({'FAIL' if fails else 'PASS'})"))
     if d["warnings"]:
-        console.print(Panel("\n".join(f"- {humanize(w)}" for w in d["warnings"]), title="Warnings",
-                            border_style="yellow", title_align="left"))
+        console.print(Panel("\n".join(f"- {humanize(w)}" for w in _merge_phases(d["warnings"])),
+                            title="Warnings", border_style="yellow", title_align="left"))
+
+
+_PHASE_WARNING = re.compile(r"^phase (\S+): (.*)$", re.S)
+
+
+def _merge_phases(warnings: list[str]) -> list[str]:
+    """Warnings that differ only in their phase said once: "phase L1: x", "phase L2: x" ->
+    "phases L1, L2: x" (in the order first met)."""
+    out: list[str] = []
+    phases: dict[str, list[str]] = {}
+    for w in warnings:
+        m = _PHASE_WARNING.match(w)
+        if not m:
+            out.append(w)
+            continue
+        if m.group(2) not in phases:
+            phases[m.group(2)] = []
+            out.append(m.group(2))
+        phases[m.group(2)].append(m.group(1))
+    return [w if w not in phases else
+            (f"phase{'s' if len(phases[w]) > 1 else ''} {', '.join(phases[w])}: {w}")
+            for w in out]
 
 
 def render_compare(d: dict, console: Console) -> None:
