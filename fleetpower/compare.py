@@ -12,11 +12,10 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
 from . import economics as E
-from .economics import life_problem, rate_problem
+from .economics import horizon_problem, life_problem, rate_problem
 from .errors import InputError
 from .fleet import FleetResult, evaluate_fleet, unit_catalogue
 from .io.design_file import Design, load_design
@@ -237,10 +236,15 @@ def compare(
                                ("--escalation", escalation, rate_problem)):
         if value is not None and why(value):
             raise InputError("compare", option, why(value))
+    rate_given = rate is not None
     years = int(econ.get("service_life_years", DEFAULT_YEARS) if years is None else years)
     rate = float(econ.get("discount_rate", DEFAULT_RATE) if rate is None else rate)
     esc = float(econ.get("energy_escalation", DEFAULT_ESCALATION)
                 if escalation is None else escalation)
+    why = horizon_problem(rate, esc, years)
+    if why:  # named after where the rate came from: the command line or the fleet file
+        raise (InputError("compare", "--rate", why) if rate_given else
+               InputError(str(fleet_path), "economics.discount_rate", why))
     candidates = []
     seen = set()
     for k, dp in enumerate(design_paths):
@@ -266,12 +270,7 @@ def compare(
                              "be compared over its life")
         purchase = price * replaced
         annual = result.total_cost_per_year
-        with np.errstate(over="ignore", invalid="ignore"):
-            life = E.lifetime_cost(purchase, annual, rate, years, esc)
-        if not np.isfinite(life["cost_cumulative_discounted"].to_numpy(dtype=float)).all():
-            raise InputError(str(fleet_path), "--rate", f"discounting at {rate:.1%} a year with "
-                             f"energy {esc:+.1%} a year over {years} years gives a present "
-                             "worth too large to represent; check the rates and the life")
+        life = E.lifetime_cost(purchase, annual, rate, years, esc)
         candidates.append(Candidate(
             label=path.stem, path=path, design=on_site, unit=unit, unit_compliance=uc,
             fleet=result, replaced_units=replaced, purchase_cost=purchase,

@@ -40,6 +40,7 @@ __all__ = [
     "co2_kg",
     "rate_problem",
     "life_problem",
+    "horizon_problem",
 ]
 
 
@@ -81,6 +82,37 @@ def life_problem(years: float) -> str | None:
     y = float(years)
     if not np.isfinite(y) or y < 1 or not y.is_integer():
         return f"must be a whole number of years, at least 1, got {years!r}"
+    return None
+
+
+#: the largest natural log of a year's present-worth factor (1 + g)**(k-1) / (1 + r)**k
+#: accepted: e**575 ~ 1e250 leaves room for costs up to 1e50 below the float64 maximum
+#: (~1.8e308, IEEE 754) in sums of up to 1e8 years
+LOG_FACTOR_MAX = 575.0
+
+
+def horizon_problem(rate_per_year: float, escalation_per_year: float, years: int) -> str | None:
+    """Why discounting at ``rate`` with ``escalation`` over ``years`` cannot be represented,
+    or None when it can.
+
+    Each rate may be usable (:func:`rate_problem`) and yet their combination over a long
+    life give present-worth factors beyond floating point: -98 %/year over 168 years
+    multiplies the last year's cost by 50**168 ~ 1e285.
+
+    Notes
+    -----
+    The factor of year k is ``(1 + g)**(k-1) (1 + r)**-k``; its natural log is linear in k,
+    so its largest magnitude over k = 1..n is at k = 1 or k = n. Both are checked against
+    :data:`LOG_FACTOR_MAX`.
+    """
+    r, g, n = float(rate_per_year), float(escalation_per_year), int(years)
+    if rate_problem(r) or rate_problem(g) or n < 1:
+        return None  # told apart by rate_problem / life_problem
+    worst = max(abs((k - 1) * np.log1p(g) - k * np.log1p(r)) for k in (1, n))
+    if worst > LOG_FACTOR_MAX:
+        return (f"discounting at {r:.1%} a year with energy {g:+.1%} a year over {n} years "
+                f"scales a year's cost by about 1e{worst / np.log(10):.0f}, too large to "
+                "represent; check the rates and the life")
     return None
 
 
@@ -237,6 +269,8 @@ def lifetime_cost(
     ``C_0 = purchase``, ``C_k = A_k (1 + g)**(k-1)``; discounted ``C_k (1 + r)**-k``.
     The last cumulative discounted value is the life-cycle cost (net present cost); for a
     constant scalar A it equals ``purchase + A * escalated_annuity_factor(r, g, n)``.
+    A combination of rates and life whose factors leave floating point
+    (:func:`horizon_problem`) raises ValueError rather than giving infinities.
 
     References
     ----------
@@ -250,10 +284,14 @@ def lifetime_cost(
         a = np.full(years, float(a))
     elif a.shape != (years,):
         raise ValueError(f"annual_cost must be a scalar or have {years} values")
+    why = horizon_problem(rate_per_year, escalation_per_year, years)
+    if why:
+        raise ValueError(why)
     k = np.arange(1, years + 1)
-    running = a * np.exp((k - 1) * np.log1p(_check_rate(escalation_per_year)))
-    cost = np.concatenate([[float(purchase_cost)], running])
-    discounted = cost * present_value_factor(rate_per_year, np.arange(years + 1))
+    with np.errstate(over="raise", invalid="raise"):
+        running = a * np.exp((k - 1) * np.log1p(_check_rate(escalation_per_year)))
+        cost = np.concatenate([[float(purchase_cost)], running])
+        discounted = cost * present_value_factor(rate_per_year, np.arange(years + 1))
     return pd.DataFrame(
         {
             "cost": cost,

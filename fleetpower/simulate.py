@@ -22,6 +22,7 @@ default cache and :func:`run`. May import the engine, the topology registry (thr
 from __future__ import annotations
 
 import hashlib
+from collections import OrderedDict
 from dataclasses import dataclass
 
 import numpy as np
@@ -219,26 +220,46 @@ def _direct_result(case: Case, samples_per_cycle: int) -> StateResult:
         voltage_scaling=d.voltage_scaling, unknown_note=impl.unknown_note)
 
 
-class ResultCache:
-    """Results by case key, in process. ``solves`` counts cases actually solved."""
+#: results the process-wide cache keeps (least recently used dropped first). One result
+#: holds three waveforms of 2048 samples and its figures, about 60 kB, so this is about
+#: 250 MB at most; a product line of 50 designs x 8 markets x every state fits.
+CACHE_MAX_RESULTS = 4096
 
-    def __init__(self) -> None:
-        self._results: dict[tuple, StateResult] = {}
+
+class ResultCache:
+    """Results by case key, in process, least recently used dropped past ``max_results``.
+
+    ``solves`` counts cases actually solved, ``hits`` cases answered from the cache,
+    ``evicted`` results dropped to stay within ``max_results`` (a dropped case is solved
+    again when next asked: the bound costs time, never a figure).
+    """
+
+    def __init__(self, max_results: int = CACHE_MAX_RESULTS) -> None:
+        if max_results < 1:
+            raise ValueError("max_results must be at least 1")
+        self._results: OrderedDict[tuple, StateResult] = OrderedDict()
+        self.max_results = int(max_results)
         self.solves = 0
         self.hits = 0
+        self.evicted = 0
 
     def get(self, key: tuple) -> StateResult | None:
         r = self._results.get(key)
         if r is not None:
             self.hits += 1
+            self._results.move_to_end(key)
         return r
 
     def put(self, key: tuple, result: StateResult) -> None:
         self._results[key] = result
+        self._results.move_to_end(key)
+        while len(self._results) > self.max_results:
+            self._results.popitem(last=False)
+            self.evicted += 1
 
     def clear(self) -> None:
         self._results.clear()
-        self.solves = self.hits = 0
+        self.solves = self.hits = self.evicted = 0
 
     def __len__(self) -> int:
         return len(self._results)

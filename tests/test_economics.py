@@ -160,3 +160,30 @@ def test_demand_reactive_and_co2():
     assert mixed == pytest.approx(2.0)
     # CO2: 100 kWh x 0.4 kg/kWh = 40 kg (arithmetic).
     assert ec.co2_kg(100.0, 0.4) == pytest.approx(40.0)
+
+
+def test_horizon_beyond_floating_point_is_named():
+    """Rates each usable, whose combination over a long life leaves float64.
+
+    Year n's present-worth factor is (1 + r)**-n (textbook P/F, Sullivan et al.); at
+    r = -98.4 %/year and n = 168 it is 0.016**-168 = e**694.6 ~ 1e301, at the edge of float64
+    (max ~1.8e308, IEEE 754), so any cost times it overflows.
+    """
+    from fleetpower.economics import horizon_problem
+
+    why = horizon_problem(-0.984, 0.0, 168)
+    assert why and "-98.4%" in why and "168 years" in why and "1e302" in why
+    assert horizon_problem(0.06, 0.02, 10) is None
+    assert horizon_problem(-0.5, 0.0, 10) is None  # 2**10: fine
+    with pytest.raises(ValueError, match="too large to represent"):
+        ec.lifetime_cost(1.0, 1.0, -0.984, 168)
+
+
+def test_horizon_problem_named_where_the_rate_came_from(tmp_path, capsys):
+    """From the command line: --rate is named; exit 2, one line (README "Bad input")."""
+    from fleetpower.cli import main
+
+    code = main(["compare", "examples/harbour-office.toml", "--design",
+                 "examples/desk-sensor-smps-230.toml", "--rate", "-0.984", "--years", "168"])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert code == 2 and len(err) == 1 and "--rate" in err[0] and "represent" in err[0]

@@ -91,3 +91,22 @@ def test_the_same_design_twice_is_solved_once(design):
     assert calls == [1]
     assert cache.solves == 1
     assert first[0] is first[1] is again[0]
+
+
+def test_the_cache_is_bounded_least_recently_used_first(design):
+    """The cache keeps at most ``max_results``; the least recently used result goes first
+    and is solved again when asked (the bound costs time, never a figure)."""
+    states = list(design.states)
+    assert len(states) >= 2
+    cache = sim.ResultCache(max_results=2)
+    a, b = (sim.Case(design, s) for s in states[:2])
+    c = sim.Case(design, states[0], mains_factor=1.1)
+    (ra,) = sim.run([a], cache=cache)
+    (rb0,) = sim.run([b], cache=cache)
+    assert sim.run([a], cache=cache)[0] is ra  # a is now the most recently used
+    sim.run([c], cache=cache)  # drops b, the least recently used
+    assert len(cache) == 2 and cache.evicted == 1 and cache.solves == 3
+    (rb,) = sim.run([b], cache=cache)  # solved again (dropping a), the same figures
+    assert cache.solves == 4 and cache.evicted == 2
+    assert rb is not rb0 and rb.pq.p_w == rb0.pq.p_w
+    assert sim.run([a], cache=cache)[0] is not ra and cache.solves == 5
