@@ -156,3 +156,19 @@ def test_rated_input_range_must_be_ordered(folder):
         load_design(path)
     assert exc.value.where.startswith("rated_input")
     assert "lower end comes first" in exc.value.message
+
+
+def test_the_two_tables_agree_on_mains():
+    """data/markets.csv (which rules are law in a market) and data/limits/scope.csv (which
+    mains a rule is written for) are two facts; they must not drift apart: every rule a
+    shipped market lists is written for that market's own mains (project invariant; the
+    mains themselves as recorded in both files, from memory)."""
+    from types import SimpleNamespace
+
+    from fleetpower.limits.applicability import IN_SCOPE, mains_scope
+
+    for mid, m in shipped_markets().items():
+        v, f = m.mains
+        on_site = SimpleNamespace(mains=SimpleNamespace(voltage=float(v), frequency=float(f)))
+        for set_id in m.limit_sets:
+            assert mains_scope(set_id, on_site) == IN_SCOPE, (mid, set_id)
