@@ -13,7 +13,7 @@ from rich.console import Console
 
 from . import __version__
 from .errors import FleetpowerError, InputError, SolverError, printable
-from .report.format import QUANTITY_LABELS, quantity_label, si_text, use_unicode  # noqa: F401 (re-exported)
+from .report.format import QUANTITY_LABELS, humanize, quantity_label, si_text, use_unicode  # noqa: F401 (re-exported)
 
 EXIT_OK = 0
 EXIT_VERDICT = 1  # only with --strict: a check failed
@@ -98,11 +98,21 @@ def failed_checks(report: dict) -> list[str]:
 
     A unit: a limit or a component stress that fails. A fleet: a limit (IEEE 519) that
     fails or a conductor over its rating. A comparison: no candidate free of failed checks.
+    A spread: any check failed by any unit of the run, or, with ``--years``, the P5 unit
+    unable to deliver its heaviest state within the years studied.
     """
     if "designs" in report:  # compare
         counts = [d.get("failed_checks", 0) for d in report["designs"]]
         return [] if not counts or min(counts) == 0 else ["every candidate fails a check"]
     out = []
+    for row in report.get("failing") or []:  # spread
+        if row.get("fraction", 0.0) > 0.0:
+            out.append(f"{row['kind']}: {humanize(row['check'])} in {row['fraction']:.1%} "
+                       "of the units")
+    ageing = report.get("ageing") or {}
+    if ageing.get("p5_fails_year") is not None:
+        out.append(f"ageing: the P5 unit cannot deliver state '{ageing['state']}' from year "
+                   f"{ageing['p5_fails_year']}")
     for row in report.get("compliance") or []:
         if row.get("verdict") == "fail":
             out.append(f"limit: {row.get('edition') or row.get('set', '')}")
@@ -437,7 +447,7 @@ def cmd_spread(args) -> int:
         print(json.dumps(report, indent=2))
     else:
         render_spread(report, _console(args))
-    return EXIT_INTERRUPTED if result.interrupted else EXIT_OK
+    return EXIT_INTERRUPTED if result.interrupted else _verdict_exit(args, report)
 
 
 def cmd_line(args) -> int:
@@ -652,6 +662,9 @@ def build_parser() -> argparse.ArgumentParser:
                     help="skip the limit sets per unit (stresses and regulation still checked)")
     sp.add_argument("--plots", metavar="DIR", help="write percentile plots (fleetpower[plot])")
     sp.add_argument("--json", action="store_true", help="print one JSON object instead")
+    sp.add_argument("--strict", action="store_true",
+                    help="exit 1 when any unit of the run fails a check, or (with --years) "
+                         "the P5 unit stops powering its load, for scripts")
     sp.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     sp.set_defaults(func=cmd_spread)
     ln = _verb(sub, "line", "a product line: every model on every market's mains and rules")

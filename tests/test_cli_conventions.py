@@ -157,3 +157,30 @@ def test_plots_onto_a_file_is_refused_before_solving(tmp_path):
     assert code == 2 and out == ""
     assert err.strip().splitlines() == [f"fleetpower: {taken}: --plots: exists and is not "
                                         "a folder"]
+
+
+def test_spread_strict_counts_any_failing_unit(capsys):
+    """``spread --strict``: exit 1 when any unit fails a check. The lean desk-sensor dropper
+    cannot hold its 18 mA active load: a half-wave charge pump delivers at most
+    f C (2 Vpk - Vz - Vf) = 50 Hz x 470 nF x (2 x 325 - 10 - 0.7) V = 15.0 mA (closed form,
+    DEVELOPERS "Ageing"), so every unit fails regulation. The isolated flyback fails none."""
+    from fleetpower.cli import main
+
+    args = ["--samples", "8", "--no-limits", "--strict"]
+    assert main(["spread", "examples/desk-sensor-dropper-lean.toml", *args]) == 1
+    err = capsys.readouterr().err
+    assert "--strict" in err and "out of regulation in 100.0% of the units" in err
+    assert main(["spread", "examples/desk-sensor-smps-230.toml", *args]) == 0
+
+
+def test_spread_strict_counts_the_p5_unit_failing_with_age():
+    """With --years, the P5 unit's year of failure is a failed check; a spread whose every
+    fraction is zero and whose P5 unit lasts is not (the rule of --strict, README)."""
+    from fleetpower.cli import failed_checks
+
+    ok = {"failing": [{"kind": "stress", "check": "zener dissipation", "fraction": 0.0}],
+          "ageing": {"state": "active", "p5_fails_year": None}}
+    assert failed_checks(ok) == []
+    aged = ok | {"ageing": {"state": "active", "p5_fails_year": 7}}
+    assert failed_checks(aged) == ["ageing: the P5 unit cannot deliver state 'active' from "
+                                   "year 7"]
