@@ -143,9 +143,9 @@ def cmd_unit(args) -> int:
 
     design = load_design(args.design)
     if args.limits:  # read the user's limit file before the (longer) solve
-        from .limits.tables import load_limit_set
+        from .limits.tables import limit_records
 
-        load_limit_set(args.limits)
+        limit_records(args.limits)
     states = [args.state] if args.state else None
     if args.state and args.state not in design.states:
         from .errors import suggest

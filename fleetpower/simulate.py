@@ -24,9 +24,9 @@ from __future__ import annotations
 import hashlib
 from collections import OrderedDict
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from .engine import layout
 from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, SteadyState, solve_periodic
@@ -35,6 +35,9 @@ from .executors import local_executor
 from .io.design_file import Design
 from .pq.ieee1459 import PowerQuality, power_quality
 from .pq.spectrum import phasors_vs_voltage
+
+if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is built)
+    import pandas as pd
 
 
 @dataclass(frozen=True)
@@ -136,6 +139,8 @@ class StateResult:
 
     def waveform(self) -> pd.DataFrame:
         """One cycle of source voltage [V] and line current [A]."""
+        import pandas as pd
+
         return pd.DataFrame({"t_s": self.t_s, "v_v": self.v_v, "i_a": self.i_a})
 
 

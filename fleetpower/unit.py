@@ -14,9 +14,9 @@ May import ``simulate``, ``topologies`` (through the design) and ``limits``; nev
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from .errors import InputError, suggest
 from .io.design_file import ConverterOutput, Design
@@ -37,6 +37,9 @@ from .topologies.base import (  # noqa: F401 (re-exported)
     HandEstimate,
     Stress,
 )
+
+if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is built)
+    import pandas as pd
 
 NON_ISOLATION_CAUTION = (
     "NOT ISOLATED: a capacitive or resistive dropper connects its output directly to the "
@@ -177,6 +180,8 @@ class UnitAnalysis:
                 "thd_i_pct": q.thd_i_pct, "v_dc_v": r.v_dc_v, "ripple_v_pp": r.ripple_v_pp,
                 "i_dc_a": r.i_dc_a,
             })
+        import pandas as pd
+
         return pd.DataFrame(rows)
 
 

@@ -547,3 +547,95 @@ def test_class_d_cap_600w():
     # h15 = 3.85/15 x 500 = 0.12833 A < 0.150 A -> not capped
     low = _by_q(L.evaluate_harmonic_emissions(harmonics(h1=2.5), 500, 0.7, "D"))
     assert low["i_h15_a"].limit == pytest.approx(3.85 / 15 * 0.5, rel=1e-5)
+
+
+# ---------------------------------------------------------------------------------------
+# 6. the standard-library reader against pandas' CSV parser
+# ---------------------------------------------------------------------------------------
+def _pandas_cells(path) -> list[dict]:
+    # reference: pandas.read_csv, the parser the tables were read with before (every cell
+    # as text, blanks around cells stripped)
+    raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+    raw.columns = [str(c).strip() for c in raw.columns]
+    return [{k: v.strip() for k, v in r.items()} for r in raw.to_dict("records")]
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in L.limits_dir().glob("*.csv")
+                                        if p.name != "scope.csv"))
+def test_shipped_table_reads_as_pandas_reads_it(name):
+    path = L.limits_dir() / name
+    ours = L.limit_records(path)
+    ref = _pandas_cells(path)
+    assert len(ours) == len(ref) > 0
+    for mine, theirs in zip(ours, ref, strict=True):
+        for col, text in theirs.items():
+            if col in ("harmonic", "limit", "a", "b", "c", "cap", "applies_from_w",
+                       "applies_to_w", "range_from", "range_to"):
+                if text == "":
+                    assert math.isnan(mine[col]) or (col in "abc" and mine[col] == 0.0)
+                else:
+                    assert mine[col] == float(text)
+            elif col == "direction":
+                assert mine[col] == (text or "max")
+            else:
+                assert mine[col] == text, (name, col)
+    # the DataFrame the library returns holds the same rows
+    frame = L.load_limit_set(path).to_dict("records")
+    assert all(_same(a, b) for a, b in zip(frame, ours, strict=True))
+
+
+def _same(a: dict, b: dict) -> bool:
+    return a.keys() == b.keys() and all(
+        (isinstance(x, float) and isinstance(y, float) and math.isnan(x) and math.isnan(y))
+        or x == y for x, y in zip(a.values(), b.values(), strict=True))
+
+
+def test_scope_table_reads_as_pandas_reads_it():
+    ref = _pandas_cells(L.limits_dir() / "scope.csv")
+    ours = L.load_scopes().to_dict("records")
+    assert len(ours) == len(ref) > 0
+    for mine, theirs in zip(ours, ref, strict=True):
+        for col, text in theirs.items():
+            if col in ("v_ln_min_v", "v_ln_max_v", "frequency_hz"):
+                assert (math.isnan(mine[col]) if text == "" else mine[col] == float(text))
+            else:
+                assert mine[col] == text
+    assert L.scope_set_ids() == {r["set"] for r in ref}
+
+
+def test_user_file_rows_count_as_a_spreadsheet_does(tmp_path):
+    # a blank line is a row of the sheet; the second limit row is on line 4 (header = 1)
+    path = tmp_path / "gap.csv"
+    path.write_text("set,quantity,limit,unit,kind\nmy,p_w,0.3,W,absolute\n\n"
+                    "my,pf,half,1,absolute\n", encoding="utf-8")
+    with pytest.raises(InputError) as exc:
+        L.load_limit_set(path)
+    assert exc.value.where == "row 4, column limit"
+
+
+@pytest.mark.parametrize("text, where, words", [
+    ("set,quantity,limit,unit,kind\nmy,p_w,0.3,W,absolute,extra\n", "row 2", "6 cells"),
+    ("set,quantity,limit,unit,kind,set\nmy,p_w,0.3,W,absolute,my\n", "row 1, column set",
+     "named twice"),
+    ("set,quantity,limit,,unit,kind\nmy,p_w,0.3,,W,absolute\n", "row 1, column 4",
+     "without a name"),
+    ("", "", "empty"),
+])
+def test_user_file_shape_refused_naming_the_row(tmp_path, text, where, words):
+    path = tmp_path / "shape.csv"
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(InputError) as exc:
+        L.limit_records(path)
+    assert exc.value.file == str(path) and exc.value.where == where
+    assert words in exc.value.message
+
+
+def test_user_file_with_byte_order_mark_and_short_row(tmp_path):
+    # a spreadsheet's UTF-8 export may start with a byte-order mark and drop trailing
+    # empty cells (common practice, no source)
+    path = tmp_path / "bom.csv"
+    path.write_bytes("\ufeffset,quantity,limit,unit,kind,note\nmy,p_w,0.3,W,absolute\n"
+                     .encode("utf-8"))
+    (rec,) = L.limit_records(path)
+    assert rec["set"] == "my" and rec["limit"] == 0.3 and rec["note"] == ""
+    assert rec["provenance"] == "user file" and rec["row"] == 2

@@ -31,6 +31,22 @@ def test_unit_path_leaves_out_pint_dask_scipy_special_matplotlib():
     assert _imported_after(code, ("pint", "dask", "scipy.special", "matplotlib")) == []
 
 
+def test_unit_run_leaves_out_pandas_matplotlib_pint():
+    # the whole verb, solves and rendering included, with a user's limit file read too:
+    # the limit tables are read into plain records, DataFrames are built only where the
+    # library API returns one (README, Performance: pandas costs ~0.45 s of a unit run)
+    code = (
+        "import contextlib, io\n"
+        "import fleetpower.cli\n"
+        "with contextlib.redirect_stdout(io.StringIO()):\n"
+        "    code = fleetpower.cli.main(['unit', 'examples/nightlight-dropper.toml',\n"
+        "                                '--limits', 'data/limits/eu-standby.csv'])\n"
+        "assert code == 0, code\n"
+    )
+    assert _imported_after(code, ("pandas", "matplotlib", "pint", "dask",
+                                  "scipy.special")) == []
+
+
 def test_limit_listing_leaves_out_pandas_and_numba():
     code = ("import fleetpower.cli\n"
             "from fleetpower.limits.catalogue import set_summaries\nset_summaries()\n")

@@ -32,13 +32,16 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from ..errors import InputError
 from ..units import registry
 from .files import write_atomic
+
+if TYPE_CHECKING:  # pragma: no cover  (pandas is imported when a capture is read)
+    import pandas as pd
 
 #: highest harmonic order a table may list (fleetpower.pq.spectrum.H_MAX)
 H_TABLE_MAX = 50
@@ -55,6 +58,8 @@ _HEADER = re.compile(r"^\s*([^\[\]]*?)\s*(?:\[\s*([^\]]*?)\s*\])?\s*$")
 
 
 def _read_table(path: str | Path) -> pd.DataFrame:
+    import pandas as pd
+
     file = str(path)
     try:
         df = pd.read_csv(path, comment="#", skipinitialspace=True, dtype=str,
@@ -123,6 +128,8 @@ def _unit_factor(file: str, col: str, unit: str, role: str) -> float:
 
 
 def _numbers(df: pd.DataFrame, file: str, col: str, label: str) -> np.ndarray:
+    import pandas as pd
+
     raw = df[col].astype(str).str.strip()
     values = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float)
     bad = ~np.isfinite(values)

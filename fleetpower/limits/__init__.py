@@ -25,7 +25,7 @@ _EXPORTS = {
         "rules"),
     **dict.fromkeys(("COLUMNS", "ComplianceRow", "limits_dir", "list_limit_sets",
                      "load_limit_set", "load_scopes", "margin", "limit_records",
-                     "scope_record"), "tables"),
+                     "scope_record", "scope_set_ids"), "tables"),
 }
 
 
@@ -55,5 +55,6 @@ __all__ = [
     "load_limit_set",
     "load_scopes",
     "scope_record",
+    "scope_set_ids",
     "margin",
 ]

@@ -142,7 +142,7 @@ def rows_in_market(rows, market: str, market_sets, source: str = "") -> list[dic
     mains and declarations of :func:`unit_compliance`, the output-regulation check, a
     user's set — is kept as it is. Only in-scope rows keep ``pass`` or ``fail``.
     """
-    shipped = set(L.load_scopes()["set"])
+    shipped = L.scope_set_ids()
     out = []
     for r in rows:
         d = dict(r)
@@ -422,6 +422,6 @@ def unit_compliance(design: Design, analysis: UnitAnalysis, limits_file=None) ->
     rows += _eps_rows(design, analysis)
     rows += _discharge_rows(design, analysis)
     if limits_file is not None:
-        df = L.load_limit_set(limits_file)
-        rows += [_scoped(r) for r in L.evaluate_user_set(df, unit_values(design, analysis))]
+        recs = L.limit_records(limits_file)
+        rows += [_scoped(r) for r in L.evaluate_user_set(recs, unit_values(design, analysis))]
     return rows

@@ -31,9 +31,9 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from ..errors import InputError, suggest
 from ..pq.spectrum import H_MAX
@@ -41,12 +41,14 @@ from .tables import (
     ComplianceRow,
     covers_power,
     covers_range,
-    limit_frame,
     limit_records,
     make_row,
     margin,
     not_applicable_row,
 )
+
+if TYPE_CHECKING:  # pragma: no cover
+    import pandas as pd
 
 NO_LIMITS_75W = "no harmonic limits apply (≤ 75 W)"
 LIGHTING_25W = (
@@ -703,15 +705,16 @@ def evaluate_discharge_rules(
 # user sets
 # --------------------------------------------------------------------------------------
 def evaluate_user_set(
-    df: str | Path | pd.DataFrame, values: Mapping[str, float]
+    df: str | Path | pd.DataFrame | list[dict], values: Mapping[str, float]
 ) -> list[ComplianceRow]:
     """Evaluate plain absolute limits on named quantities.
 
     Parameters
     ----------
-    df : str, Path or DataFrame
+    df : str, Path, DataFrame or list of dict
         Limit rows (``kind == "absolute"``; ``direction`` ``max`` or ``min``), e.g. a
-        user file loaded by :func:`load_limit_set`.
+        user file loaded by :func:`load_limit_set` (or its path, or its
+        :func:`limit_records`).
     values : mapping of str to float
         Value of each quantity, keyed by the ``quantity`` column (e.g. ``p_w``, ``pf``).
         When ``values`` contains ``p_w``, rows with ``applies_from_w``/``applies_to_w``
@@ -732,9 +735,8 @@ def evaluate_user_set(
     ----------
     Format: ``data/limits/README.md`` (this project).
     """
-    table = limit_frame(df)
     rows = []
-    for rec in table.to_dict("records"):
+    for rec in limit_records(df):
         if rec["kind"] != "absolute":
             raise InputError(
                 str(rec.get("file", "<input>")),

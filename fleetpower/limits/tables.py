@@ -16,25 +16,35 @@ So in both cases ``used_pct == 100`` exactly at the limit, ``used_pct > 100`` me
 failing and ``headroom < 0`` means failing. The verdict flips exactly at the limit: a
 value equal to the limit passes.
 
+The tables are read with the standard library into plain records (one dict per row, as
+:func:`limit_records` hands them to the evaluators), so checking a unit never imports
+pandas; the functions that return DataFrames (:func:`load_limit_set`,
+:func:`list_limit_sets`, :func:`load_scopes`) build them from those records when asked.
+
 Owns: the limit-file format, the shipped-table cache, :class:`ComplianceRow`, :func:`margin`.
 May import ``errors`` and ``_resources`` only; nothing that simulates or evaluates a unit.
 """
 
 from __future__ import annotations
 
+import csv
 import functools
+import io
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from .._resources import data_dir
 from ..errors import FleetpowerError, InputError, suggest
-from ..io.files import check_path
+from ..io.files import check_path, read_text_bounded
 from .catalogue import SCOPE_FILE
+
+if TYPE_CHECKING:  # pragma: no cover
+    import pandas as pd
 
 #: Columns a limit file must have.
 REQUIRED_COLUMNS: tuple[str, ...] = ("set", "quantity", "limit", "unit", "kind")
@@ -245,10 +255,12 @@ def not_applicable_row(
 
     ``df`` is the set's rows, as a DataFrame or as :func:`limit_records` gives them.
     """
-    if isinstance(df, pd.DataFrame):
-        rec = df.iloc[0].to_dict() if len(df) else {}
-    else:
+    if df is None:
+        rec = {}
+    elif isinstance(df, list):
         rec = df[0] if df else {}
+    else:  # a DataFrame
+        rec = df.iloc[0].to_dict() if len(df) else {}
     return ComplianceRow(
         set=set_id,
         quantity=quantity,
@@ -283,29 +295,71 @@ def _as_float(text: str, file: str, row_no: int, col: str) -> float:
     return out
 
 
-def _read_table(path: Path) -> pd.DataFrame:
-    """Read and validate one limit file; row numbers count the header as row 1."""
+def _csv_rows(path: Path | str, what: str) -> tuple[list[str], list[tuple[int, list[str]]]]:
+    """Header and data rows of a CSV file, every cell stripped of surrounding blanks.
+
+    Each data row comes with its row number as a spreadsheet counts it (header = 1);
+    blank lines are skipped, a short row is padded with empty cells, and a row with more
+    cells than the header, or a header naming a column twice, is refused naming the row.
+    The file is read through :func:`fleetpower.io.files.read_text_bounded` (bounded size,
+    a regular file, UTF-8; a leading byte-order mark is dropped).
+    """
     file = str(path)
+    text = read_text_bounded(path)
+    if text.startswith("\ufeff"):
+        text = text[1:]
+    rows: list[tuple[int, list[str]]] = []
     try:
-        raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
-    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
-        raise InputError(file, "", f"cannot read limit file: {exc}") from None
-    raw.columns = [str(c).strip() for c in raw.columns]
-    for col in raw.columns:
+        reader = csv.reader(io.StringIO(text, newline=""), skipinitialspace=True)
+        header = None
+        for row_no, cells in enumerate(reader, start=1):  # a blank line is a row too
+            cells = [c.strip() for c in cells]
+            if not any(cells):
+                continue
+            if header is None:
+                header = cells
+                continue
+            rows.append((row_no, cells))
+    except csv.Error as exc:
+        raise InputError(file, "", f"cannot read {what}: {exc}") from None
+    if header is None:
+        raise InputError(file, "", f"cannot read {what}: the file is empty")
+    seen: set[str] = set()
+    for n, col in enumerate(header, start=1):
+        if col == "":
+            raise InputError(file, f"row 1, column {n}", "a column without a name")
+        if col in seen:
+            raise InputError(file, f"row 1, column {col}", "column named twice")
+        seen.add(col)
+    out = []
+    for row_no, cells in rows:
+        if len(cells) > len(header):
+            raise InputError(file, f"row {row_no}", f"{len(cells)} cells, but the header "
+                             f"names {len(header)} columns")
+        out.append((row_no, cells + [""] * (len(header) - len(cells))))
+    return header, out
+
+
+def _read_records(path: Path) -> list[dict]:
+    """Read and validate one limit file into records; row numbers count the header as row 1.
+
+    Each record maps every column of :data:`COLUMNS` (text, or float for
+    :data:`NUMERIC_COLUMNS`, NaN when empty) plus ``row`` and ``file``.
+    """
+    file = str(path)
+    header, rows = _csv_rows(path, "limit file")
+    for col in header:
         if col not in COLUMNS:
             raise InputError(
                 file, f"row 1, column {col}", f"unknown column '{col}'{suggest(col, COLUMNS)}"
             )
     for col in REQUIRED_COLUMNS:
-        if col not in raw.columns:
+        if col not in header:
             raise InputError(file, "row 1", f"missing required column '{col}'")
-    for col, default in OPTIONAL_COLUMNS.items():
-        if col not in raw.columns:
-            raw[col] = default
-    raw = raw.apply(lambda s: s.str.strip())
     records = []
-    for i, rec in enumerate(raw.to_dict("records")):
-        row_no = i + 2
+    for row_no, cells in rows:
+        rec = dict(OPTIONAL_COLUMNS)
+        rec.update(zip(header, cells, strict=True))
         for col in ("set", "quantity", "unit", "kind"):
             if rec[col] == "":
                 raise InputError(file, f"row {row_no}, column {col}", "empty cell")
@@ -323,32 +377,43 @@ def _read_table(path: Path) -> pd.DataFrame:
                     f"row {row_no}, column {col}",
                     f"'{rec[col]}' is not one of {', '.join(choices)}{suggest(rec[col], choices)}",
                 )
-        out = dict(rec)
+        out = {col: rec[col] for col in COLUMNS}
         for col in NUMERIC_COLUMNS:
-            out[col] = np.nan if rec[col] == "" else _as_float(rec[col], file, row_no, col)
+            out[col] = math.nan if rec[col] == "" else _as_float(rec[col], file, row_no, col)
         if rec["kind"] == "formula":
             if rec["form"] == "":
                 raise InputError(file, f"row {row_no}, column form", "formula row needs a form")
             for col in ("a", "b", "c"):
-                if np.isnan(out[col]):
+                if math.isnan(out[col]):
                     out[col] = 0.0
-        elif np.isnan(out["limit"]):
+        elif math.isnan(out["limit"]):
             raise InputError(file, f"row {row_no}, column limit", "empty cell")
-        if not np.isnan(out["harmonic"]) and out["harmonic"] != int(out["harmonic"]):
+        if not math.isnan(out["harmonic"]) and out["harmonic"] != int(out["harmonic"]):
             raise InputError(
                 file, f"row {row_no}, column harmonic", f"'{rec['harmonic']}' is not an integer"
             )
         out["row"] = row_no
         out["file"] = file
         records.append(out)
-    df = pd.DataFrame.from_records(records, columns=list(COLUMNS) + ["row", "file"])
-    return df
+    return records
+
+
+def _frame(records: list[dict]) -> pd.DataFrame:
+    """Records of :func:`_read_records` as the DataFrame the library returns."""
+    import pandas as pd
+
+    return pd.DataFrame.from_records(records, columns=list(COLUMNS) + ["row", "file"])
+
+
+def _read_table(path: Path) -> pd.DataFrame:
+    """Read and validate one limit file (a DataFrame of :func:`_read_records`)."""
+    return _frame(_read_records(path))
 
 
 @functools.lru_cache(maxsize=4)
-def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> pd.DataFrame:
-    frames = [_read_table(Path(name)) for name, _ in stamp]
-    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=COLUMNS)
+def _shipped_cached(folder: str, stamp: tuple[tuple[str, float], ...]) -> tuple[dict, ...]:
+    """Every shipped row, in file order (files sorted by name)."""
+    return tuple(rec for name, _ in stamp for rec in _read_records(Path(name)))
 
 
 #: Its columns: which products and mains a set covers, and where that comes from.
@@ -361,27 +426,33 @@ SCOPE_OUTSIDE: tuple[str, ...] = ("out of scope", "for information")
 
 
 @functools.lru_cache(maxsize=4)
-def _scopes_cached(path: str, stamp: float) -> pd.DataFrame:
+def _scopes_cached(path: str, stamp: float) -> tuple[dict, ...]:
     file = path
-    try:
-        raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
-    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
-        raise InputError(file, "", f"cannot read the scope table: {exc}") from None
-    if tuple(raw.columns) != SCOPE_COLUMNS:
+    header, rows = _csv_rows(path, "the scope table")
+    if tuple(header) != SCOPE_COLUMNS:
         raise InputError(file, "row 1", f"columns must be {', '.join(SCOPE_COLUMNS)}")
-    raw = raw.apply(lambda s: s.str.strip())
-    for i, rec in enumerate(raw.to_dict("records")):
+    records = []
+    for row_no, cells in rows:
+        rec = dict(zip(header, cells, strict=True))
         for col, choices in (("requires", SCOPE_REQUIRES), ("outside_mains", SCOPE_OUTSIDE)):
             if rec[col] not in choices:
-                raise InputError(file, f"row {i + 2}, column {col}",
+                raise InputError(file, f"row {row_no}, column {col}",
                                  f"'{rec[col]}' is not one of {', '.join(choices)}")
         for col in ("set", "products", "market", "edition", "clause", "provenance"):
             if rec[col] == "":
-                raise InputError(file, f"row {i + 2}, column {col}", "empty cell")
-    for col in ("v_ln_min_v", "v_ln_max_v", "frequency_hz"):
-        raw[col] = [np.nan if x == "" else _as_float(x, file, i + 2, col)
-                    for i, x in enumerate(raw[col])]
-    return raw
+                raise InputError(file, f"row {row_no}, column {col}", "empty cell")
+        for col in ("v_ln_min_v", "v_ln_max_v", "frequency_hz"):
+            rec[col] = math.nan if rec[col] == "" else _as_float(rec[col], file, row_no, col)
+        records.append(rec)
+    return tuple(records)
+
+
+def _scope_file() -> Path:
+    path = limits_dir() / SCOPE_FILE
+    if not path.is_file():
+        raise FleetpowerError(f"no scope table {path}: the installation is incomplete "
+                              "(reinstall fleetpower)")
+    return path
 
 
 def load_scopes() -> pd.DataFrame:
@@ -403,11 +474,11 @@ def load_scopes() -> pd.DataFrame:
     Format: ``data/limits/README.md`` (this project); the scope clause of each set is
     in its ``clause`` column.
     """
-    path = limits_dir() / SCOPE_FILE
-    if not path.is_file():
-        raise FleetpowerError(f"no scope table {path}: the installation is incomplete "
-                              "(reinstall fleetpower)")
-    return _scopes_cached(str(path), path.stat().st_mtime).copy()
+    import pandas as pd
+
+    path = _scope_file()
+    return pd.DataFrame.from_records(list(_scopes_cached(str(path), path.stat().st_mtime)),
+                                     columns=list(SCOPE_COLUMNS))
 
 
 def _stamp() -> tuple[tuple[str, float], ...]:
@@ -419,15 +490,20 @@ def _stamp() -> tuple[tuple[str, float], ...]:
 
 
 def _shipped() -> pd.DataFrame:
-    """All shipped rows (cached per file modification time; a copy is returned)."""
-    return _shipped_cached(str(limits_dir()), _stamp()).copy()
+    """All shipped rows as a DataFrame (read once per file modification time)."""
+    return _frame(list(_shipped_cached(str(limits_dir()), _stamp())))
 
 
 @functools.lru_cache(maxsize=64)
 def _shipped_set_cached(name: str, folder: str,
-                        stamp: tuple[tuple[str, float], ...]) -> pd.DataFrame:
-    shipped = _shipped_cached(folder, stamp)
-    return shipped[shipped["set"] == name].reset_index(drop=True)
+                        stamp: tuple[tuple[str, float], ...]) -> tuple[dict, ...]:
+    return tuple(r for r in _shipped_cached(folder, stamp) if r["set"] == name)
+
+
+def _unknown_set(text: str) -> InputError:
+    ids = sorted({r["set"] for r in _shipped_cached(str(limits_dir()), _stamp())})
+    return InputError(text, "limit set", f"unknown limit set '{text}' and no such file"
+                      f"{suggest(text, ids)}; 'fleetpower limits' lists the sets")
 
 
 def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
@@ -457,7 +533,11 @@ def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
     ----------
     Format: ``data/limits/README.md`` (this project).
     """
-    text = str(path_or_name)
+    return _frame(_load_records(path_or_name))
+
+
+def _is_file_name(text: str) -> tuple[Path, bool]:
+    """(path, whether ``text`` names a limit file rather than a shipped set id)."""
     path = Path(check_path(text))
     try:
         is_file = path.is_file()
@@ -466,14 +546,21 @@ def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
     if path.suffix.lower() == ".csv" or is_file:
         if not is_file:
             raise InputError(text, "", "limit file not found")
-        return _read_table(path)
+        return path, True
+    return path, False
+
+
+def _load_records(path_or_name: str | Path) -> list[dict]:
+    """:func:`load_limit_set` as fresh records (the same rows, without pandas)."""
+    text = str(path_or_name)
+    path, is_file = _is_file_name(text)
+    if is_file:
+        return _read_records(path)
     # a spread run evaluates every unit against the same sets: select each set once
     sel = _shipped_set_cached(text, str(limits_dir()), _stamp())
-    if sel.empty:
-        ids = sorted(set(_shipped()["set"]))
-        raise InputError(text, "limit set", f"unknown limit set '{text}' and no such file"
-                         f"{suggest(text, ids)}; 'fleetpower limits' lists the sets")
-    return sel.copy()
+    if not sel:
+        raise _unknown_set(text)
+    return [dict(r) for r in sel]
 
 
 def list_limit_sets() -> pd.DataFrame:
@@ -518,48 +605,42 @@ def covers_range(rec: Mapping, x: float) -> bool:
 
 
 def limit_frame(set_or_df: str | Path | pd.DataFrame) -> pd.DataFrame:
-    return set_or_df if isinstance(set_or_df, pd.DataFrame) else load_limit_set(set_or_df)
+    """A limit set as a DataFrame: a DataFrame as given, else :func:`load_limit_set`."""
+    return load_limit_set(set_or_df) if isinstance(set_or_df, (str, Path)) else set_or_df
 
 
-@functools.lru_cache(maxsize=64)
-def _records_cached(name: str, folder: str,
-                    stamp: tuple[tuple[str, float], ...]) -> tuple[dict, ...]:
-    return tuple(_shipped_set_cached(name, folder, stamp).to_dict("records"))
-
-
-def limit_records(set_or_df: str | Path | pd.DataFrame) -> list[dict]:
+def limit_records(set_or_df: str | Path | pd.DataFrame | list[dict]) -> list[dict]:
     """The rows of a limit set as plain dicts (column -> value), in file order.
 
-    The evaluators read rows this way: a shipped set's rows are converted from pandas once
-    per file modification time and handed out as fresh dicts, so checking many units (a
-    product line, a spread) costs no DataFrame work per unit. A DataFrame or a user file
-    is converted on each call, as :func:`load_limit_set` reads it.
+    The evaluators read rows this way: a shipped set's rows are read once per file
+    modification time and handed out as fresh dicts, so checking many units (a product
+    line, a spread) costs no table work per unit and never imports pandas. A user file is
+    read on each call, as :func:`load_limit_set` reads it; a DataFrame (or a list of such
+    records) is converted as given.
     """
-    if isinstance(set_or_df, pd.DataFrame):
-        return set_or_df.to_dict("records")
-    text = str(set_or_df)
-    path = Path(check_path(text))
-    if path.suffix.lower() == ".csv" or len(text) > 255 or path.is_file():
-        return load_limit_set(path).to_dict("records")
-    recs = _records_cached(text, str(limits_dir()), _stamp())
-    if not recs:
-        load_limit_set(text)  # raises the unknown-set error
-    return [dict(r) for r in recs]
+    if isinstance(set_or_df, (str, Path)):
+        return _load_records(set_or_df)
+    if isinstance(set_or_df, list):
+        return [dict(r) for r in set_or_df]
+    return set_or_df.to_dict("records")
 
 
 @functools.lru_cache(maxsize=4)
 def _scope_records_cached(path: str, stamp: float) -> dict[str, dict]:
-    sc = _scopes_cached(path, stamp)
-    return {str(r["set"]): r for r in sc.to_dict("records")}
+    return {str(r["set"]): r for r in _scopes_cached(path, stamp)}
 
 
 def scope_record(set_id: str) -> dict:
     """The scope row of one shipped set as a dict ({} when the scope table has none)."""
-    path = limits_dir() / SCOPE_FILE
-    if not path.is_file():
-        load_scopes()  # raises the incomplete-installation error
+    path = _scope_file()
     rec = _scope_records_cached(str(path), path.stat().st_mtime).get(set_id)
     return dict(rec) if rec is not None else {}
+
+
+def scope_set_ids() -> set[str]:
+    """The ids of every set the scope table covers (what :func:`load_scopes` lists)."""
+    path = _scope_file()
+    return set(_scope_records_cached(str(path), path.stat().st_mtime))
 
 
 __all__ = [
@@ -576,4 +657,5 @@ __all__ = [
     "margin",
     "not_applicable_row",
     "scope_record",
+    "scope_set_ids",
 ]

@@ -21,12 +21,15 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from .polyphase import system_phases
 from .spectrum import H_MAX, harmonic_table, phasors_vs_voltage, thd_pct
+
+if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is built)
+    import pandas as pd
 
 
 @dataclass(frozen=True)
@@ -304,6 +307,8 @@ def power_totals(
             "pf": _ratio(p_w[p], s_va),
             "dpf": _ratio(p1[p], s1_va),
         }
+    import pandas as pd
+
     df = pd.DataFrame.from_dict(rows, orient="index")
     p_tot = float(df["p_w"].sum())
     p1_tot = float(df["p1_w"].sum())

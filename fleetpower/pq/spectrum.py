@@ -4,13 +4,17 @@ Owns: the one highest reported order :data:`H_MAX`, the phasor convention (compl
 cosine reference, index = harmonic order, index 0 = DC), phasors referred to the voltage
 fundamental, the one :func:`thd_pct`. Conventions as stated in :mod:`fleetpower.pq.ieee1459`.
 
-Imports nothing of fleetpower (numpy and pandas only).
+Imports nothing of fleetpower (numpy only; pandas where a DataFrame is asked for).
 """
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
-import pandas as pd
+
+if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is built)
+    import pandas as pd
 
 #: highest harmonic order reported and used for THD (IEC 61000-3-2 / IEEE 519 go to 40 / 50)
 H_MAX = 50
@@ -63,21 +67,29 @@ def phasors_vs_voltage(v_v: np.ndarray, i_a: np.ndarray) -> tuple[np.ndarray, np
     return vh * rot, ih * rot
 
 
-def harmonic_table(i_h_a: np.ndarray) -> pd.DataFrame:
-    """Tabulate current phasors (index = order) for h = 1..H_MAX."""
+def harmonic_columns(i_h_a: np.ndarray) -> dict[str, np.ndarray]:
+    """The columns of :func:`harmonic_table` as arrays (h = 1..H_MAX), without pandas.
+
+    Keys ``h`` [-], ``i_rms_a`` [A], ``pct_of_fundamental`` [%] and ``phase_deg`` [deg].
+    """
     i_h_a = np.asarray(i_h_a)
     h = np.arange(1, min(H_MAX, i_h_a.shape[-1] - 1) + 1)
     mag = np.abs(i_h_a[h])
     i1 = mag[0]
     pct = 100.0 * mag / i1 if i1 > 0 else np.zeros_like(mag)
-    return pd.DataFrame(
-        {
-            "h": h,
-            "i_rms_a": mag,
-            "pct_of_fundamental": pct,
-            "phase_deg": np.degrees(np.angle(i_h_a[h])),
-        }
-    )
+    return {
+        "h": h,
+        "i_rms_a": mag,
+        "pct_of_fundamental": pct,
+        "phase_deg": np.degrees(np.angle(i_h_a[h])),
+    }
+
+
+def harmonic_table(i_h_a: np.ndarray) -> pd.DataFrame:
+    """Tabulate current phasors (index = order) for h = 1..H_MAX."""
+    import pandas as pd
+
+    return pd.DataFrame(harmonic_columns(i_h_a))
 
 
 def harmonic_content(x_h) -> np.ndarray:
@@ -136,5 +148,5 @@ def thd_pct(x_h, h_max: int | None = H_MAX, *, no_fundamental: float = 0.0) -> n
     return np.where(fund > 0, out, no_fundamental)
 
 
-__all__ = ["H_MAX", "phasors", "phasors_vs_voltage", "harmonic_table", "harmonic_content",
-           "thd_pct"]
+__all__ = ["H_MAX", "phasors", "phasors_vs_voltage", "harmonic_columns", "harmonic_table",
+           "harmonic_content", "thd_pct"]

@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import FleetpowerError
-from ..pq.spectrum import harmonic_table
+from ..pq.spectrum import harmonic_columns
 from ..simulate import StateResult
 from ..unit import UnitAnalysis
 from .format import fmt
@@ -45,7 +45,7 @@ def _clean(x: Any) -> Any:
 def state_to_dict(r: StateResult) -> dict:
     """JSON-ready figures of one state (keys carry their units)."""
     q = r.pq
-    table = harmonic_table(q.i_h_a)
+    table = harmonic_columns(q.i_h_a)
     out = {
         "state": r.state,
         "v_rms_v": q.v_rms_v,
@@ -64,9 +64,10 @@ def state_to_dict(r: StateResult) -> dict:
         "thd_i_pct": q.thd_i_pct,
         "i_dc_mains_a": q.i_dc_a,
         "harmonics": [
-            {"h": int(row.h), "i_rms_a": row.i_rms_a,
-             "pct_of_fundamental": row.pct_of_fundamental, "phase_deg": row.phase_deg}
-            for row in table.itertuples()
+            {"h": int(h), "i_rms_a": i_a, "pct_of_fundamental": pct, "phase_deg": deg}
+            for h, i_a, pct, deg in zip(table["h"], table["i_rms_a"],
+                                        table["pct_of_fundamental"], table["phase_deg"],
+                                        strict=True)
         ],
     }
     if not r.circuit_known:

@@ -9,9 +9,12 @@ each limit. Percentiles are exact: the scalars are kept (8 bytes per figure and 
 from __future__ import annotations
 
 from collections.abc import Iterable
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
+
+if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is built)
+    import pandas as pd
 
 #: percentiles reported by default [%]
 DEFAULT_PERCENTILES = (5.0, 50.0, 95.0)
@@ -99,6 +102,8 @@ class SpreadStatistics:
         .. [1] R. J. Hyndman, Y. Fan, "Sample quantiles in statistical packages",
            The American Statistician 50 (1996) 361-365.
         """
+        import pandas as pd
+
         ps = list(percentiles)
         rows = {}
         for name in self._names:
@@ -114,6 +119,8 @@ class SpreadStatistics:
 
     def failure_fractions(self) -> pd.Series:
         """Fraction of recorded samples failing each flag [-]."""
+        import pandas as pd
+
         return pd.Series({name: float(np.mean(self.flags(name))) if self.flags(name).size
                           else float("nan") for name in self._flags}, dtype=float)
 
