@@ -52,6 +52,21 @@ def _check(text: str, width: int) -> None:
     assert not UNPREFIXED.findall(text), UNPREFIXED.findall(text)[:5]
 
 
+#: words a narrow screen may drop on purpose (a column header that becomes "note")
+_RENAMED = {"clause", "reason"}
+
+
+def _whole_words(fn, d: dict, width: int) -> None:
+    """Every word of the screen as 1000 columns print it appears whole at ``width``: a
+    narrow column may wrap between words, never cut one ("transformer c" + "ore") nor
+    crop it (rich crops silently when the columns' minimum widths exceed the screen)."""
+    pattern = r"[\w.%()+\-/:'=,;µΩ±]+"
+    narrow = set(re.findall(pattern, _render(fn, d, width)))
+    cut = sorted(w for w in set(re.findall(pattern, _render(fn, d, 1000)))
+                 if len(w) >= 4 and w not in narrow and w not in _RENAMED)
+    assert not cut, cut[:8]
+
+
 def _golden(prefix: str) -> list[str]:
     return sorted(p.stem for p in GOLDEN.glob(f"{prefix}-*.json"))
 
@@ -65,6 +80,7 @@ def _dict(stem: str) -> dict:
 @pytest.mark.parametrize("stem", _golden("unit"))
 def test_unit_screen(stem, width):
     _check(_render(render_unit, _dict(stem), width), width)
+    _whole_words(render_unit, _dict(stem), width)
 
 
 @pytest.mark.parametrize("width", [80, 120])
@@ -72,6 +88,7 @@ def test_unit_screen(stem, width):
 def test_fleet_screen(stem, width):
     text = _render(render_fleet, _dict(stem), width)
     _check(text, width)
+    _whole_words(render_fleet, _dict(stem), width)
     d = _dict(stem)
     assert f"{d['units']:,} units" in text  # thousands separators, as every count
 
@@ -79,6 +96,7 @@ def test_fleet_screen(stem, width):
 @pytest.mark.parametrize("width", [80, 120])
 def test_compare_screen(width):
     _check(_render(render_compare, _dict("demo"), width), width)
+    _whole_words(render_compare, _dict("demo"), width)
 
 
 def test_unit_screen_known_figures():
@@ -105,6 +123,7 @@ def test_line_screen():
     d = json.loads(out.getvalue())
     for width in (80, 120):
         _check(_render(render_line, d, width), width)
+        _whole_words(render_line, d, width)
 
 
 def test_spread_screen():
@@ -121,6 +140,7 @@ def test_spread_screen():
     for width in (80, 120):
         text = _render(render_spread, d, width)
         _check(text, width)
+        _whole_words(render_spread, d, width)
         assert "loss: bleeder" in text and "reservoir minimum voltage" in text
 
 

@@ -167,3 +167,21 @@ def test_failure_fractions_and_worst_sample():
     assert s.percentiles().loc["p_w", "p50"] == np.percentile([0.1, 0.4, 0.2, 0.5, 0.3], 50)
     with pytest.raises(ValueError):
         s.add(0, {"p_w": np.array([1.0])})
+
+
+def test_flags_keep_their_meaning_whatever_order_chunks_arrive_in():
+    """A flag a chunk does not carry counts as not failing for that chunk's samples (the
+    fraction is over every sample recorded, counted by hand), and the order of figures and
+    flags is that of sample index, not of arrival (same seed, same report, any worker)."""
+    chunks = [(0, {"a": np.array([1.0, 2.0])}, {"x": np.array([True, False])}),
+              (2, {"b": np.array([3.0, 4.0]), "a": np.array([5.0, 6.0])},
+               {"y": np.array([True, True]), "x": np.array([False, False])})]
+    orders = []
+    for arrival in (chunks, chunks[::-1]):
+        s = SpreadStatistics()
+        for c in arrival:
+            s.add(*c)
+        f = s.failure_fractions()
+        assert f["x"] == pytest.approx(1 / 4) and f["y"] == pytest.approx(2 / 4)
+        orders.append((list(s.percentiles().index), list(f.index)))
+    assert orders[0] == orders[1] == (["a", "b"], ["x", "y"])

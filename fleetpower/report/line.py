@@ -172,10 +172,12 @@ def render_line(d: dict, console: Console) -> None:
     for key, title in (("least_headroom", "Fix first: least headroom"),
                        ("most_energy", "Fix first: most installed-base energy")):
         ft = Table(box=box.SIMPLE_HEAD, title=title, title_justify="left", pad_edge=False)
-        for col in ("model", "mkt", "worst check", "used", "MWh", "largest standby loss"):
-            ft.add_column(col, overflow="fold")
+        for col in ("model in market", "worst check", "used", "MWh", "largest standby loss"):
+            ft.add_column(col, overflow="fold", justify="right" if col in ("used", "MWh") else "left",
+                          min_width={"worst check": _RULE_WIDTH,
+                                     "largest standby loss": 16}.get(col))
         for x in d["fix_first"][key]:
-            ft.add_row(x["model"], x["market"], humanize(x["worst_check"] or "—"),
+            ft.add_row(f"{x['model']}\nin {x['market']}", _check_cell(x["worst_check"]),
                        fmt(x["worst_used_pct"], 3, "%"), fmt(x["installed_kwh"] / 1e3, 4),
                        f"{x['driver']} {fmt(x['driver_w'], 2, 'W')} of "
                        f"{fmt(x['driver_of_p_w'], 2, 'W')} ({x['driver_state']})")
@@ -183,6 +185,22 @@ def render_line(d: dict, console: Console) -> None:
     if d.get("caution"):
         console.print(Panel(Text(d["caution"], style="bold"), title="SAFETY",
                             border_style="red", box=box.DOUBLE))
+
+
+#: the longest shipped rule id ("eu-2019-1782-eps-low-voltage"): a narrow column never
+#: cuts one in two
+_RULE_WIDTH = 20
+
+
+def _check_cell(check: str | None) -> str:
+    """A "rule(s) quantity" check as a cell: one rule per line, then the quantity's label
+    (``iec60335-1-discharge + iec62368-1-discharge tau_discharge_s`` -> three lines)."""
+    if not check:
+        return "—"
+    rules, _, quantity = check.rpartition(" ")
+    if not rules:
+        return humanize(check)
+    return rules.replace(" + ", " +\n") + "\n" + humanize(quantity)
 
 
 # ----------------------------------------------------------------------------------

@@ -131,13 +131,22 @@ def render_spread(report: dict, console) -> None:
         console.print(f"[bold red]{report['caution']}[/bold red]")
     t = table("Toleranced values")
     for col in ("key", "nominal", "distribution", "band", "source"):
-        t.add_column(col, overflow="fold", min_width=24 if col == "key" else None)
+        t.add_column(col, overflow="fold", no_wrap=col == "key")
+    sources: list[str] = []  # said once each, in full, under the table
     for r in report["tolerances"]:
         band = (f"±{r['band_pct']:g} %" + (f" = {r['sigmas']:g} σ" if "sigmas" in r else "")
                 if "band_pct" in r else ", ".join(f"{c:.4g}" for c in r["corners"]))
+        if r["source"] not in sources:
+            sources.append(r["source"])
         t.add_row(r["key"], _value_text(r["key"], r["nominal"]), r["distribution"], band,
-                  r["source"])
+                  f"[{sources.index(r['source']) + 1}]")
     console.print(t)
+    notes = Table(box=None, show_header=False, pad_edge=False)
+    notes.add_column(justify="right", no_wrap=True)
+    notes.add_column(overflow="fold")
+    for k, text in enumerate(sources, 1):
+        notes.add_row(f"[{k}]", text)
+    console.print(notes)
     t = table(f"Percentiles ({report['conditions']})")
     for col in ("group", "quantity", "P5", "P50", "P95", "max"):
         t.add_column(col, justify="right" if col[0] in "Pm" else "left", overflow="fold")

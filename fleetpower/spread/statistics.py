@@ -24,14 +24,26 @@ class SpreadStatistics:
     """Accumulates per-sample scalars and failure flags of a spread run.
 
     Chunks are keyed by their first sample index, so the result does not depend on the
-    order chunks arrive in.
+    order chunks arrive in: figures and flags are listed in the order they first occur in
+    sample-index order, and a flag a chunk does not carry counts as not failing for that
+    chunk's samples (a check a unit was not subject to is not a failure of that unit).
     """
 
     def __init__(self) -> None:
         self._chunks: dict[int, tuple[dict[str, np.ndarray], dict[str, np.ndarray]]] = {}
         self._lengths: dict[int, int] = {}
-        self._names: list[str] = []
-        self._flags: list[str] = []
+
+    def _first_seen(self, part: int) -> list[str]:
+        """Names of figures (part 0) or flags (part 1) in sample-index order of first use."""
+        return list(dict.fromkeys(k for c in sorted(self._chunks) for k in self._chunks[c][part]))
+
+    @property
+    def _names(self) -> list[str]:
+        return self._first_seen(0)
+
+    @property
+    def _flags(self) -> list[str]:
+        return self._first_seen(1)
 
     def add(self, start: int, scalars: dict[str, np.ndarray],
             failing: dict[str, np.ndarray] | None = None) -> None:
@@ -52,12 +64,6 @@ class SpreadStatistics:
             raise ValueError("a chunk needs figures with one value per sample")
         if start in self._chunks:
             raise ValueError(f"chunk starting at sample {start} recorded twice")
-        for name in scalars:
-            if name not in self._names:
-                self._names.append(name)
-        for name in failing:
-            if name not in self._flags:
-                self._flags.append(name)
         self._chunks[start] = (
             {k: np.asarray(v, dtype=float) for k, v in scalars.items()},
             {k: np.asarray(v, dtype=bool) for k, v in failing.items()},
@@ -76,9 +82,10 @@ class SpreadStatistics:
         return np.concatenate(parts) if parts else np.empty(0)
 
     def flags(self, name: str) -> np.ndarray:
-        """All recorded flags ``name``, in sample-index order."""
-        parts = [self._chunks[k][1][name] for k in sorted(self._chunks)
-                 if name in self._chunks[k][1]]
+        """Flag ``name`` of every recorded sample, in sample-index order (False for the
+        samples of a chunk that does not carry it)."""
+        parts = [self._chunks[k][1].get(name, np.zeros(self._lengths[k], dtype=bool))
+                 for k in sorted(self._chunks)]
         return np.concatenate(parts) if parts else np.empty(0, dtype=bool)
 
     def sample_indices(self) -> np.ndarray:

@@ -230,8 +230,12 @@ def _unit_figures(design: Design, results: list, limits_file,
                         caution=None, max_deliverable_a=None, hand=None, eps=eps)
     for row in unit_compliance(design, unit, limits_file=limits_file):
         if row["verdict"] in ("pass", "fail"):
-            key = f"limit|{row['set']}: {row['quantity']}"
-            failing[key] = failing.get(key, False) or row["verdict"] == "fail"
+            # a row citing several rules ("a + b": the plug-pin discharge) names the rules it
+            # breaks when it fails, every rule applied when it passes: one flag per rule, so
+            # a check keeps one name whichever rules a unit breaks
+            for rule in row["set"].split(" + "):
+                key = f"limit|{rule}: {row['quantity']}"
+                failing[key] = failing.get(key, False) or row["verdict"] == "fail"
     return figures, failing
 
 

@@ -69,25 +69,25 @@ PART_CLASS_DEFAULTS: dict[str, ClassDefault] = {
     "film-capacitor": ClassDefault(
         0.10, "uniform",
         "common practice, no source: metallized-film X2 / dropper capacitors are sold as "
-        "K (+-10 %) or M (+-20 %); K is the usual choice for a dropper"),
+        "K (±10 %) or M (±20 %); K is the usual choice for a dropper"),
     "electrolytic-capacitor": ClassDefault(
         0.20, "uniform",
-        "common practice, no source: aluminium electrolytics are +-20 % (M) parts"),
+        "common practice, no source: aluminium electrolytics are ±20 % (M) parts"),
     "resistor": ClassDefault(
         0.05, "uniform",
-        "common practice, no source: carbon-film resistors are J (+-5 %) parts; "
+        "common practice, no source: carbon-film resistors are J (±5 %) parts; "
         "declare 1 % for metal film"),
     "zener": ClassDefault(
         0.05, "uniform",
-        "from memory: the usual zener series (1N47xxA, BZX55C) specify +-5 % of V_Z "
+        "from memory: the usual zener series (1N47xxA, BZX55C) specify ±5 % of V_Z "
         "at the test current"),
     "mains-voltage": ClassDefault(
         0.10, "uniform",
-        "from memory: EN 50160 (supply voltage variations) +-10 % of the nominal voltage "
-        "for 95 % of the 10-min means of a week; IEC 60038 230 V +-10 %"),
+        "from memory: EN 50160 (supply voltage variations) ±10 % of the nominal voltage "
+        "for 95 % of the 10-min means of a week; IEC 60038 230 V ±10 %"),
     "mains-frequency": ClassDefault(
         0.01, "uniform",
-        "from memory: EN 50160 (power frequency) 50 Hz +-1 % during 99.5 % of a year on "
+        "from memory: EN 50160 (power frequency) 50 Hz ±1 % during 99.5 % of a year on "
         "interconnected systems"),
 }
 
