@@ -67,7 +67,13 @@ def case_key(case: Case, samples_per_cycle: int) -> tuple:
 
 @dataclass(frozen=True)
 class Balance:
-    """Energy balance of one state: input = delivered + losses (+ storage, ~0) [W]."""
+    """Energy balance of one state: input = delivered + losses (+ storage, ~0) [W].
+
+    ``p_in_w`` is measured at the supply's terminals (after the mains' source impedance),
+    so the Joule loss in the mains' source resistance, ``source_resistance_w``, is not
+    part of the supply's books: it is reported beside them (drawn from the EMF, lost
+    before the terminals).
+    """
 
     p_in_w: float
     delivered_w: float
@@ -77,7 +83,7 @@ class Balance:
 
     @property
     def residual_w(self) -> float:
-        return self.p_in_w - self.delivered_w - self.losses_w - self.source_resistance_w
+        return self.p_in_w - self.delivered_w - self.losses_w
 
     @property
     def residual_pct(self) -> float:
@@ -152,7 +158,8 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
         load_a = design.load_current_a(state) if case.load_a is None else case.load_a
         pr = sol.probes[b]
         mean = pr.mean(axis=0)
-        v = pr[:, idx["v_source_v"]]
+        # measured at the supply's terminals (README "Where P is measured")
+        v = pr[:, idx["v_terminal_v"]]
         i = pr[:, idx["i_line_a"]]
         pq = power_quality(v, i)
         labels = design.topology_impl.loss_labels()
@@ -179,8 +186,9 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
             v_cap_rms = float(np.sqrt(np.mean(vcap * vcap)))
         else:
             ok = bool(vo.min() >= design.output.undervoltage_lockout)
-            v_cap_peak = float(np.max(np.abs(v)))
-            v_cap_rms = float(np.sqrt(np.mean(v * v)))
+            v_x = pr[:, idx["v_source_v"]]  # the X capacitor sits on the EMF (engine)
+            v_cap_peak = float(np.max(np.abs(v_x)))
+            v_cap_rms = float(np.sqrt(np.mean(v_x * v_x)))
         results.append(
             StateResult(
                 state=state,

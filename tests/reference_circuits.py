@@ -470,7 +470,7 @@ class ReferenceResult:
     """The reference's last cycle and its power quantities (consumer sign)."""
 
     t_s: np.ndarray  # sample times within the cycle [s]
-    v_v: np.ndarray  # source voltage [V]
+    v_v: np.ndarray  # voltage at the supply's terminals [V]
     i_a: np.ndarray  # line current [A]
     v_o_v: np.ndarray  # reservoir / bulk voltage [V]
     p_w: float
@@ -635,12 +635,16 @@ def simulate_reference(
         losses["regulator (pass element)"] = float(np.mean((vo - v_reg) * ckt.i_load))
         losses["regulator (quiescent)"] = float(np.mean(vo * ckt.i_q))
 
+    # measured at the supply's terminals: the EMF less the drop across the mains' source
+    # resistance, which carries the rectifier branch's current (Ohm's law; IEEE 1459-2010
+    # defines P as the mean of v i at the point where v and i are measured)
+    v_term = vs - ckt.r_source * i_s
     return ReferenceResult(
         t_s=t - t[0],
-        v_v=vs,
+        v_v=v_term,
         i_a=i_line,
         v_o_v=vo,
-        p_w=float(np.mean(vs * i_line)),
+        p_w=float(np.mean(v_term * i_line)),
         i_rms_a=float(np.sqrt(np.mean(i_line**2))),
         i_dc_a=float(np.mean(i_line)),
         i_h_a=ih,

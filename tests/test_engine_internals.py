@@ -204,6 +204,7 @@ def test_random_designs_converge_and_conserve_energy():
     sol = solve_periodic(np.array(rows), np.array(x0s), raise_on_failure=False)
     assert sol.converged.all()
     mean = {k: v.mean(axis=1) for k, v in layout.probe_table(sol.probes).items()}
+    # from the source EMF: the supply's losses, its output and the source resistance's loss
     p_in = (sol.probe("i_line_a") * sol.probe("v_source_v")).mean(axis=1)
     out = sum(mean[k] for k in layout.LOSS_PROBES) + mean["p_delivered_w"] + \
         mean["p_source_resistance_w"]

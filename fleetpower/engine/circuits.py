@@ -54,6 +54,16 @@ rectifier branch only; the X capacitor and its bleeder see the source EMF. Their
 current (tens of mA) through a sub-ohm source impedance changes the terminal voltage
 by less than 1e-4 of the mains, while making the X capacitor a state would add a time
 constant of nanoseconds that a mains-cycle integrator should not have to resolve.
+
+Measurement point: the probe ``v_terminal_v`` is the voltage at the supply's terminals,
+``v_s - R_src i_s - L_mains di_s/dt`` (the EMF less the drop across the mains' own
+impedance; a transformer's leakage, also in the ``L_src`` row, is inside the supply), and
+``i_line_a`` is the current into the supply, shunt branches included. Power quality is
+computed from these two, so P is what the supply draws at its terminals; the loss in the
+source resistance (``p_source_resistance_w``) is the mains', reported beside it. By the
+departure above the shunt branches' current does not pass the source impedance, so
+``mean(v_terminal i_line)`` and the supply's own books differ by the mean of that drop
+times the shunt current, of order R_src I_s I_shunt (a few 1e-4 W for a 0.4 ohm source).
 """
 
 from __future__ import annotations
@@ -86,6 +96,7 @@ from .layout import (
     P_ILOAD,
     P_IQ,
     P_LM,
+    P_LMAINS,
     P_LSRC,
     P_NTURNS,
     P_OMEGA,
@@ -126,6 +137,7 @@ from .layout import (
     PR_V_O,
     PR_V_OUT,
     PR_V_SOURCE,
+    PR_V_TERMINAL,
     RECTIFIER_SMPS,
     RESISTIVE_DROPPER,
     S_IS,
@@ -325,6 +337,13 @@ def probes(x, t, p, out):
         out[PR_P_STORE_C1] = vc1 * (i_s - vc1 / p[P_RB])
     out[PR_I_LINE] = i_line
     out[PR_V_SOURCE] = vs
+    # the supply's terminals: the source EMF less the drop across the mains' own source
+    # impedance (R_src, and the mains' share of the series inductance, whose voltage is
+    # that share of the row's L di/dt = f[S_IS]; the rest is leakage inside the supply)
+    v_term = vs - p[P_RSRC] * i_s
+    if p[P_LSRC] > 0.0:
+        v_term -= p[P_LMAINS] / p[P_LSRC] * f[S_IS]
+    out[PR_V_TERMINAL] = v_term
     out[PR_P_SERIES] = p[P_RSER] * i_s * i_s
     out[PR_P_SOURCE_R] = p[P_RSRC] * i_s * i_s
     out[PR_P_STORE_L] = f[S_IS] * i_s  # L di/dt * i (zero when L_src = 0)

@@ -59,11 +59,12 @@ PARAMS = (
     "l_magnetizing_h",  # magnetizing inductance, primary side
     "r_core_ohm",  # core-loss resistance, primary side
     "v_reservoir_max_v",  # physical upper bound of the reservoir voltage (solver projection)
+    "l_mains_h",  # the mains' own share of l_source_h (the rest is inside the supply)
 )
 (
     P_TOPO, P_RECT, P_VPK, P_OMEGA, P_RSER, P_RSRC, P_LSRC, P_C1, P_RB, P_CO, P_D_IS,
     P_D_NVT, P_Z_VK, P_Z_S, P_Z_RZ, P_ZF_IS, P_ZF_NVT, P_ILOAD, P_IQ, P_VOUT, P_VDO,
-    P_PCONV, P_ETA, P_UVLO, P_CX, P_NTURNS, P_LM, P_RC, P_VO_MAX,
+    P_PCONV, P_ETA, P_UVLO, P_CX, P_NTURNS, P_LM, P_RC, P_VO_MAX, P_LMAINS,
 ) = range(len(PARAMS))
 N_PARAMS = len(PARAMS)
 
@@ -95,6 +96,7 @@ PROBES = (
     "v_out_v",
     "p_core_w",
     "p_store_magnetizing_w",
+    "v_terminal_v",
 )
 N_PROBES = len(PROBES)
 PR_I_LINE = PROBES.index("i_line_a")
@@ -118,6 +120,7 @@ PR_I_ZENER = PROBES.index("i_zener_a")
 PR_V_OUT = PROBES.index("v_out_v")
 PR_P_CORE = PROBES.index("p_core_w")
 PR_P_STORE_LM = PROBES.index("p_store_magnetizing_w")
+PR_V_TERMINAL = PROBES.index("v_terminal_v")
 
 #: probes that are losses inside the supply (their means are the loss budget)
 LOSS_PROBES = (

@@ -102,14 +102,17 @@ def _loss_table(states: list[dict]) -> Table:
                 names.append(k)
     for n in names:
         t.add_row(n, *[fmt(s["losses_w"].get(n, 0.0), 3, "W") for s in states])
-    if any(s["balance"]["source_resistance_w"] for s in states):
-        t.add_row("mains source resistance",
-                  *[fmt(s["balance"]["source_resistance_w"], 3, "W") for s in states])
     t.add_row("delivered to the load", *[fmt(s["delivered_w"], 3, "W") for s in states],
               style="bold")
-    t.add_row("input P", *[fmt(s["balance"]["p_in_w"], 4, "W") for s in states], style="bold")
+    t.add_row("input P (at the terminals)",
+              *[fmt(s["balance"]["p_in_w"], 4, "W") for s in states], style="bold")
     t.add_row("balance residual",
               *[f"{s['balance']['residual_pct']:+.1e} %" for s in states], style="dim")
+    if any(s["balance"]["source_resistance_w"] for s in states):
+        # lost in the mains before the terminals: not part of the supply's input P
+        t.add_row("lost in the mains' source resistance",
+                  *[fmt(s["balance"]["source_resistance_w"], 3, "W") for s in states],
+                  style="dim")
     return t
 
 

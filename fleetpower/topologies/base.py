@@ -219,6 +219,7 @@ def common_row(topology: Topology, design: Design, mains_factor: float) -> np.nd
     p[L.P_OMEGA] = 2.0 * math.pi * mains.frequency
     p[L.P_RSRC] = mains.source_resistance
     p[L.P_LSRC] = mains.source_inductance
+    p[L.P_LMAINS] = mains.source_inductance  # a topology may add leakage to P_LSRC only
     p[L.P_D_IS] = diode_saturation_current_a(
         parts.diode.forward_voltage, parts.diode.forward_test_current
     )
