@@ -17,6 +17,7 @@ spectrum referred to its own voltage and rotated into L1's frame for the neutral
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from itertools import repeat
 from pathlib import Path
 
 import numpy as np
@@ -57,7 +58,7 @@ def unit_catalogue(designs: dict[Path, Design], progress=None) -> dict[Path, dic
     return out
 
 
-def regulation_failures(spec: FleetSpec, catalogue: dict) -> list[dict]:
+def regulation_failures(spec: FleetSpec, catalogue: dict, _by_design=None) -> list[dict]:
     """A design that cannot power its load in a state some group uses: one failure each.
 
     The largest load the design holds in regulation is searched only for designs that
@@ -65,15 +66,12 @@ def regulation_failures(spec: FleetSpec, catalogue: dict) -> list[dict]:
     """
     from .unit import max_deliverable_current_a
 
+    by_design = _by_design if _by_design is not None else _groups_by_design(spec.groups)
     out = []
     for path, d in spec.designs.items():
-        used: dict[str, list[str]] = {}
-        for g in spec.groups:
-            if g.design_path != path:
-                continue
-            for k, s in enumerate(g.states):
-                if g.occupancy[:, k].any():
-                    used.setdefault(s, []).append(g.name)
+        if path not in by_design:
+            continue
+        used = _states_used(spec.groups, *by_design[path])
         for s, names in used.items():
             res = catalogue[path][s]
             # held, or not known (a measured gadget, a hand-made catalogue)
@@ -91,6 +89,40 @@ def regulation_failures(spec: FleetSpec, catalogue: dict) -> list[dict]:
                         "need": f"'{d.name}' to hold {amounts[1]} in state '{s}'",
                         "design": d.name, "state": s, "groups": names})
     return out
+
+
+def _states_used(groups, sel: np.ndarray, occ: np.ndarray) -> dict[str, list[str]]:
+    """Each state some of the groups ``sel`` (one design's) is ever in: the groups' names.
+
+    States in the order the groups first use them (by group, then by the group's states).
+    """
+    used: dict[str, list[str]] = {}
+    first = groups[int(sel[0])].states
+    if any(groups[j].states != first for j in sel.tolist()):  # not one state order
+        for j in sel.tolist():
+            g = groups[j]
+            for k, s in enumerate(g.states):
+                if g.occupancy[:, k].any():
+                    used.setdefault(s, []).append(g.name)
+        return used
+    in_state = occ.any(axis=1)  # (groups, states): ever in that state
+    ever = in_state.any(axis=0)
+    first_group = np.where(ever, in_state.argmax(axis=0), sel.size)
+    for k in sorted(np.flatnonzero(ever).tolist(), key=lambda k: (first_group[k], k)):
+        used[first[k]] = [groups[j].name for j in sel[in_state[:, k]].tolist()]
+    return used
+
+
+def _groups_by_design(groups) -> dict[Path, tuple[np.ndarray, np.ndarray]]:
+    """Per design file: (indices of its groups in order, their occupancies stacked).
+
+    The stack is ``(groups, hours, states)``: one design's groups in the fleet's order.
+    """
+    index: dict[Path, list[int]] = {}
+    for k, g in enumerate(groups):
+        index.setdefault(g.design_path, []).append(k)
+    return {path: (np.array(ks, dtype=np.int64), np.stack([groups[k].occupancy for k in ks]))
+            for path, ks in index.items()}
 
 
 # ----------------------------------------------------------------------------------
@@ -172,7 +204,30 @@ def _phase_split(count: int, phase: str, phases: list[str]) -> dict[str, int]:
 
 
 def _units_on_phases(groups, phases: list[str]) -> np.ndarray:
-    """(groups, phases) array of units: a balanced group split as evenly as whole units go."""
+    """(groups, phases) array of units: a balanced group split as evenly as whole units go.
+
+    All groups at once; the per-group loop (:func:`_units_on_phases_loop`) takes counts
+    that are no 64-bit integers and phases that are not the site's.
+    """
+    n_p = len(phases)
+    where = {p: k for k, p in enumerate(phases)}
+    where["balanced"] = n_p
+    counts = [g.count for g in groups]
+    code = np.fromiter(map(where.get, (g.phase for g in groups), repeat(-1)), dtype=np.int64,
+                       count=len(groups))
+    if (code < 0).any() or not all(type(c) is int and abs(c) < 2**62 for c in counts):
+        return _units_on_phases_loop(groups, phases)
+    count = np.array(counts, dtype=np.int64)
+    out = np.zeros((len(groups), n_p))
+    one = np.flatnonzero(code < n_p)
+    out[one, code[one]] = count[one]
+    both = np.flatnonzero(code == n_p)
+    base, extra = np.divmod(count[both], n_p)
+    out[both] = base[:, None] + (np.arange(n_p)[None, :] < extra[:, None])
+    return out
+
+
+def _units_on_phases_loop(groups, phases: list[str]) -> np.ndarray:
     out = np.zeros((len(groups), len(phases)))
     where = {p: k for k, p in enumerate(phases)}
     for k, g in enumerate(groups):
@@ -184,58 +239,66 @@ def _units_on_phases(groups, phases: list[str]) -> np.ndarray:
     return out
 
 
-_CHUNK = 20_000  # groups per accumulation step (bounds the index arrays' memory)
+def _accumulate(w, on_phase, cols, sel, addend) -> None:
+    """``w[t, p, cols] += units(g, p) * addend[g, t]`` for the groups ``sel``, in order.
 
-
-def _accumulate(w, groups, on_phase, cols_d, gid, addend) -> None:
-    """``w[t, p, cols(g)] += units(g, p) * addend(g)[t]`` for every group, in order.
-
-    ``addend(g)`` is an (hours, states) array such as the group's occupancy. The additions
-    into each element of ``w`` happen in the groups' order (``np.add.at`` is sequential), so
-    the sums are the same, bit for bit, as a loop over the groups.
+    ``addend`` is a (groups, hours, states) array such as the groups' occupancies, all of
+    one design (whose design-states are the columns ``cols`` of ``w``). The additions into
+    each element of ``w`` happen one group after the other in the groups' order
+    (``np.add.accumulate`` is a running sum), so the sums are the same, bit for bit, as a
+    loop over the groups; a phase a group has no units on adds nothing.
     """
-    n_t, n_p, n_k = w.shape
-    flat = w.reshape(-1)
-    t_idx = np.arange(n_t)[:, None] * (n_p * n_k)
-    templates = [(t_idx + c[None, :]).ravel() for c in cols_d]
-    for lo in range(0, len(groups), _CHUNK):
-        chunk = groups[lo:lo + _CHUNK]
-        values = [addend(g).ravel() for g in chunk]
-        seg = np.array([len(x) for x in values])
-        values = np.concatenate(values)
-        idx = np.concatenate([templates[d] for d in gid[lo:lo + _CHUNK]])
-        for p in range(n_p):
-            n = np.repeat(on_phase[lo:lo + _CHUNK, p], seg)
-            nz = n != 0  # a phase a group has no units on adds nothing
-            np.add.at(flat, idx[nz] + p * n_k, n[nz] * values[nz])
+    for p in range(w.shape[1]):
+        n = on_phase[sel, p]
+        nz = n != 0
+        terms = n[nz][:, None, None] * addend[nz]
+        w[:, p, cols] = np.add.accumulate(np.concatenate([w[None, :, p, cols], terms]),
+                                          axis=0)[-1]
 
 
-def _group_rows(spec, cat, groups, gid, tariff) -> dict:
+def _coincident_occupancy_all(occ: np.ndarray, share: np.ndarray, values) -> np.ndarray:
+    """:func:`_coincident_occupancy` of many groups of one design at once: (groups, states).
+
+    Each group's share in the state of the largest ``values`` among those it spends any
+    hours in (the first such state on a tie), the rest in the one of the smallest.
+    """
+    vals = np.asarray(values, dtype=float)[None, :]
+    possible = occ[:, 0, :] > 0
+    top = np.where(possible, vals, -np.inf).argmax(axis=1)
+    low = np.where(possible, vals, np.inf).argmin(axis=1)
+    rows = np.arange(len(occ))
+    out = np.zeros(possible.shape)
+    out[rows, top] += share
+    out[rows, low] += 1.0 - share
+    return out
+
+
+def _group_rows(spec, cat, groups, gid, tariff, by_design) -> dict:
     """The per-group table's columns (energy, cost, mean and peak figures per unit)."""
     paths = list(spec.designs)
     p_d = [np.array([cat[pa][s].pq.p_w for s in spec.designs[pa].states]) for pa in paths]
     q_d = [np.array([cat[pa][s].pq.q1_var for s in spec.designs[pa].states]) for pa in paths]
     s_max = [float(max(cat[pa][s].pq.s_va for s in spec.designs[pa].states)) for pa in paths]
-    counts = np.array([g.count for g in groups], dtype=float)
+    count = [g.count for g in groups]
+    counts = np.array(count, dtype=float)
     p_unit = np.empty((len(groups), HOURS))
     q_mean = np.empty(len(groups))
-    for d in range(len(paths)):
-        sel = np.flatnonzero(gid == d)
-        if not sel.size:
+    for d, pa in enumerate(paths):
+        if pa not in by_design:
             continue
-        occ = np.stack([groups[k].occupancy for k in sel])  # (g, 24, states)
+        sel, occ = by_design[pa]  # (g, 24, states)
         p_unit[sel] = occ @ p_d[d]
         q_mean[sel] = (occ @ q_d[d]).mean(axis=1)
     e_day_kwh = counts * p_unit.sum(axis=1) / 1e3
     cost_day = counts * ((p_unit / 1e3) @ tariff.energy_price_by_hour)
-    names = [spec.designs[pa].name for pa in paths]
-    files = [str(pa.name) for pa in paths]
+    names = np.array([spec.designs[pa].name for pa in paths], dtype=object)
+    files = np.array([str(pa.name) for pa in paths], dtype=object)
     return {
-        "group": [g.name for g in groups], "design": [names[d] for d in gid],
-        "design_file": [files[d] for d in gid], "count": [g.count for g in groups],
+        "group": [g.name for g in groups], "design": names[gid].tolist(),
+        "design_file": files[gid].tolist(), "count": count,
         "phase": [g.phase for g in groups],
         "p_unit_mean_w": p_unit.mean(axis=1), "q1_unit_mean_var": q_mean,
-        "s_unit_max_va": [s_max[d] for d in gid],
+        "s_unit_max_va": np.array(s_max)[gid].tolist(),
         "e_kwh_per_year": e_day_kwh * DAYS_PER_YEAR,
         "energy_cost_per_year": cost_day * DAYS_PER_YEAR,
     }
@@ -267,14 +330,18 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     n_k, n_p = len(keys), len(phases)
     groups = spec.groups
     on_phase = _units_on_phases(groups, phases)  # (groups, phases) whole units
-    # per design: its columns in the design-state axis and its per-unit figures
+    # per design: its columns in the design-state axis, its groups and their occupancies
     design_ids = {path: n for n, path in enumerate(spec.designs)}
     cols_d = [np.array([kidx[(path, s)] for s in d.states]) for path, d in spec.designs.items()]
     gid = np.array([design_ids[g.design_path] for g in groups], dtype=np.int64)
+    by_design = _groups_by_design(groups)
     w = np.zeros((HOURS, n_p, n_k))
-    _accumulate(w, groups, on_phase, cols_d, gid, lambda g: g.occupancy)
-    rows = _group_rows(spec, cat, groups, gid, tariff)
-    hours_groups = [k for k, g in enumerate(groups) if g.coincident_share is not None]
+    for path, (sel, occ) in by_design.items():
+        _accumulate(w, on_phase, cols_d[design_ids[path]], sel, occ)
+    rows = _group_rows(spec, cat, groups, gid, tariff, by_design)
+    share = np.array([np.nan if g.coincident_share is None else g.coincident_share
+                      for g in groups])
+    hours_groups = np.flatnonzero(~np.isnan(share)).tolist()
     p_k = np.array([cat[pa][s].pq.p_w for pa, s in keys])
     q_k = np.array([cat[pa][s].pq.q1_var for pa, s in keys])
     spectra_k = {key: cat[key[0]][key[1]].i_h_vs_v_a for key in keys}
@@ -292,19 +359,16 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         # the same state. Two coincident cases, each with every such group at once in its
         # state of most kW, or of most current (x diversity; the rest in the least one)
         for what, metric in (("kW", "p_w"), ("current", "i_rms_a")):
-            values = {path: [getattr(cat[path][s].pq, metric) for s in d.states]
-                      for path, d in spec.designs.items()}
-            memo: dict = {}
-
-            def shift(g, v=values, memo=memo):
-                key = (g.design_path, (g.occupancy[0] > 0).tobytes(), g.coincident_share)
-                if key not in memo:
-                    memo[key] = _coincident_occupancy(g, v[g.design_path])
-                return memo[key][None, :] - g.occupancy
-
             wc = w.copy()
-            _accumulate(wc, [groups[k] for k in hours_groups], on_phase[hours_groups],
-                        cols_d, gid[hours_groups], shift)
+            for path, (sel, occ) in by_design.items():
+                mine = ~np.isnan(share[sel])
+                if not mine.any():
+                    continue
+                sel, occ = sel[mine], occ[mine]
+                values = [getattr(cat[path][s].pq, metric) for s in spec.designs[path].states]
+                peak_occ = _coincident_occupancy_all(occ, share[sel], values)
+                _accumulate(wc, on_phase, cols_d[design_ids[path]], sel,
+                            peak_occ[:, None, :] - occ)
             w_cases += list(wc)
             case_labels += [f"{case_labels[t]}, coincident: {_HEAVIEST} of most {what} at "
                             "once" for t in range(HOURS)]
@@ -442,7 +506,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
             warnings.append(f"design '{d.name}' is specified for {nominal.voltage:.0f} V "
                             f"{nominal.frequency:.0f} Hz but simulated on this site's "
                             f"{site.v_ln_v:.0f} V {site.f_hz:.0f} Hz")
-    failures = regulation_failures(spec, cat)
+    failures = regulation_failures(spec, cat, by_design)
     warnings += [f["text"] for f in failures]
     return FleetResult(
         spec=spec, summation_label=label, units=sum(g.count for g in spec.groups),

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from itertools import chain, compress, repeat
 from pathlib import Path
 from typing import Any
 
@@ -272,11 +273,11 @@ def _design(file, where, ref, base: Path, site: Site, cache: dict) -> tuple[Path
     path = (base / ref).resolve()
     if not path.is_file():
         raise InputError(file, f"{where}design", f"design file not found: {ref}")
-    refs[(base, ref)] = path
     if path not in cache:
         d = load_design(path)
         cache[path] = d.on_mains(site.v_ln_v, site.f_hz)
         cache[(path, "nominal")] = d.mains
+    refs[(base, ref)] = path  # once read: a file that failed fails again, naming itself
     return path, cache[path]
 
 
@@ -332,39 +333,226 @@ def _inventory(file: str, ref: str, base: Path, site: Site, cache: dict, start: 
             raise InputError(inv, f"row 1, column {col}", f"unknown column{suggest(col, known)}")
     for col in sorted(required - set(df.columns)):
         raise InputError(inv, "row 1", f"missing column {col!r}")
-    groups = []
     columns = list(df.columns)
-    for k, values in enumerate(zip(*(df[c].tolist() for c in columns), strict=True)):
-        row = dict(zip(columns, values, strict=True))
-        where = f"row {k + 2}, column "
-        g: dict[str, Any] = {"design": row["design"], "phase": row["phase"]}
-        if row.get("name"):
-            g["name"] = row["name"]
-        try:
-            g["count"] = float(row["count"])
-        except ValueError:
-            raise InputError(inv, where + "count", f"not a number: {row['count']!r}") from None
-        if row.get("diversity"):
-            try:
-                g["diversity"] = float(row["diversity"])
-            except ValueError:
-                raise InputError(inv, where + "diversity",
-                                 f"not a number: {row['diversity']!r}") from None
-        if row.get("hours"):
-            try:
-                g["hours"] = _parse_hours_cell(row["hours"])
-            except ValueError as exc:
-                raise InputError(inv, where + "hours", str(exc)) from None
-        if row.get("profile"):
-            g["profile"] = row["profile"].split()
-        try:
-            groups.append(_group(inv, "", g, path.parent, site, cache, start + k))
-        except InputError as exc:
-            if exc.file != inv:  # a design file's own error already names its file and key
-                raise
-            col = exc.where.split(".")[0].split("[")[0] or "design"
-            raise InputError(inv, where + col, exc.message) from None
+    cells = {c: df[c].to_numpy(dtype=object) for c in columns}
+    clean = _clean_rows(inv, cells, len(df), path.parent, site, cache, start)
+    ok = clean["ok"]
+    groups: list = [None] * len(df)
+    # a row the column-wise checks could not pass is read alone, as always: the first bad
+    # row raises its own one-line error (rows that pass never raise, so it is the first)
+    for k in np.flatnonzero(~ok).tolist():
+        row = {c: cells[c][k] for c in columns}
+        groups[k] = _inventory_row(inv, row, k, path.parent, site, cache, start)
+    ok = np.flatnonzero(ok)
+    for k, g in zip(ok.tolist(), map(Group, clean["name"][ok], clean["path"][ok],
+                                     clean["count"][ok].tolist(), clean["phase"][ok],
+                                     clean["occupancy"][ok], clean["peak"][ok],
+                                     clean["states"][ok], [""] * ok.size), strict=True):
+        groups[k] = g
     return groups
+
+
+def _inventory_row(inv: str, row: dict, k: int, base: Path, site: Site, cache: dict,
+                   start: int) -> Group:
+    """One inventory row read alone (CSV row ``k + 2``); raises its one-line error."""
+    where = f"row {k + 2}, column "
+    g: dict[str, Any] = {"design": row["design"], "phase": row["phase"]}
+    if row.get("name"):
+        g["name"] = row["name"]
+    try:
+        g["count"] = float(row["count"])
+    except ValueError:
+        raise InputError(inv, where + "count", f"not a number: {row['count']!r}") from None
+    if row.get("diversity"):
+        try:
+            g["diversity"] = float(row["diversity"])
+        except ValueError:
+            raise InputError(inv, where + "diversity",
+                             f"not a number: {row['diversity']!r}") from None
+    if row.get("hours"):
+        try:
+            g["hours"] = _parse_hours_cell(row["hours"])
+        except ValueError as exc:
+            raise InputError(inv, where + "hours", str(exc)) from None
+    if row.get("profile"):
+        g["profile"] = row["profile"].split()
+    try:
+        return _group(inv, "", g, base, site, cache, start + k)
+    except InputError as exc:
+        if exc.file != inv:  # a design file's own error already names its file and key
+            raise
+        col = exc.where.split(".")[0].split("[")[0] or "design"
+        raise InputError(inv, where + col, exc.message) from None
+
+
+def _distinct(values: np.ndarray) -> tuple[np.ndarray, list]:
+    """(code of each cell, the distinct cells); a cell that is no text has code -1."""
+    codes, uniques = pd.factorize(values, use_na_sentinel=True)
+    uniques = list(uniques)
+    bad = [u for u, v in enumerate(uniques) if not isinstance(v, str)]
+    if bad:
+        codes = np.where(np.isin(codes, bad), -1, codes)
+    return codes, uniques
+
+
+def _texts(cells: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(cell is text, cell is text and not empty) for each cell."""
+    n = len(cells)
+    text = np.fromiter(map(isinstance, cells, repeat(str)), dtype=bool, count=n)
+    full = np.fromiter(map(bool, cells), dtype=bool, count=n)
+    return text, text & full
+
+
+def _objects(items, n: int) -> np.ndarray:
+    """A 1-d object array of ``n`` items (tuples and arrays kept whole, not unpacked)."""
+    return np.fromiter(items, dtype=object, count=n)
+
+
+def _share_ok(d: np.ndarray) -> np.ndarray:
+    """The diversity :func:`_occupancy` accepts: a finite share in (0, 1]."""
+    return np.isfinite(d) & (d > 0.0) & (d <= 1.0)
+
+
+def _clean_rows(inv, cells, n, base, site, cache, start) -> dict[str, np.ndarray]:
+    """The inventory read column by column: each row's Group fields, and ``ok`` for rows
+    every check passes.
+
+    Each distinct cell text (design reference, count, hours, diversity) is parsed and
+    checked once, by the same functions a single row uses, and the 24-hour profiles of a
+    design all at once with the same arithmetic, so a row that passes is the Group
+    :func:`_inventory_row` would make of it, number for number. A row that fails any
+    check (or that these checks do not cover) has ``ok`` False and is left to
+    :func:`_inventory_row`, which names its row, column and fault.
+    """
+    empty = _objects(repeat(""), n)
+    ok = np.ones(n, dtype=bool)
+    out = {"ok": ok, "count": np.zeros(n, dtype=np.int64), "phase": cells["phase"],
+           "path": _objects(repeat(None), n), "states": _objects(repeat(None), n),
+           "occupancy": _objects(repeat(None), n), "peak": _objects(repeat(None), n)}
+
+    # design: every distinct reference resolved (and its file read) once
+    codes, refs = _distinct(cells["design"])
+    designs = []
+    for u, ref in enumerate(refs):
+        try:
+            designs.append(_design(inv, "", ref, base, site, cache))
+        except Exception:  # noqa: BLE001 - the row read alone raises it, in its turn
+            designs.append(None)
+            ok &= codes != u
+    ok &= codes >= 0
+    # count: a whole number in (0, MAX_GROUP_COUNT], each distinct text parsed once
+    codes_c, texts = _distinct(cells["count"])
+    counts = np.zeros(len(texts) + 1, dtype=np.int64)  # [-1]: a cell that is no text
+    for u, text in enumerate(texts):
+        try:
+            counts[u] = int(_number(inv, "count", float(text), positive=True, integer=True,
+                                    hi=MAX_GROUP_COUNT))
+        except (ValueError, InputError):
+            ok &= codes_c != u
+    ok &= codes_c >= 0
+    out["count"] = counts[codes_c]
+    # phase: one of the site's, or balanced
+    allowed = cache.get("phases")
+    if allowed is None:
+        allowed = cache["phases"] = site.phases + ["balanced"]
+    ok &= pd.Series(cells["phase"], dtype=object).isin(allowed).to_numpy()
+    # name: the row's own, or its place in the fleet
+    names = cells.get("name", empty)
+    text, named = _texts(names)
+    ok &= text
+    out["name"] = names.copy()
+    for k in np.flatnonzero(~named).tolist():
+        out["name"][k] = f"group {start + k + 1}"
+    # diversity: empty (1), or a number read once per distinct text
+    codes_d, texts_d = _distinct(cells.get("diversity", empty))
+    div = np.ones(len(texts_d) + 1)
+    given = np.zeros(len(texts_d) + 1, dtype=bool)
+    for u, text in enumerate(texts_d):
+        if text:
+            given[u] = True
+            try:
+                div[u] = float(text)
+            except ValueError:
+                ok &= codes_d != u
+    ok &= codes_d >= 0
+    # hours or profile: exactly one of them (the row read alone says which is wrong)
+    hours = cells.get("hours", empty)
+    profile = cells.get("profile", empty)
+    text_h, has_h = _texts(hours)
+    text_p, has_p = _texts(profile)
+    ok &= text_h & text_p & (has_h != has_p)
+    share = np.where(given[codes_d], div[codes_d], 1.0)
+    orders = cache.setdefault("orders", {})
+    paths = _objects(repeat(None), len(designs) + 1)
+    states = _objects(repeat(None), len(designs) + 1)
+    for u, found in enumerate(designs):
+        if found is None:
+            continue
+        dpath, design = found
+        order = orders.get(dpath)
+        if order is None:
+            order = orders[dpath] = _state_order(design)
+        paths[u], states[u] = dpath, order[0]
+        mine = ok & (codes == u)
+        _hours_rows(inv, design, order, np.flatnonzero(mine & has_h), hours, share, out)
+        _profile_rows(order, np.flatnonzero(mine & has_p), profile, share, out)
+    out["path"], out["states"] = paths[codes], states[codes]
+    return out
+
+
+def _hours_rows(inv, design, order, idx, hours, share, out) -> None:
+    """Occupancy of rows giving hours per state: once per distinct hours text.
+
+    The hours alone set the occupancy (:func:`_occupancy`); the diversity, checked here
+    as it checks it, is the row's coincident share.
+    """
+    ok = out["ok"]
+    good = _share_ok(share[idx])
+    ok[idx[~good]] = False
+    idx = idx[good]
+    if not idx.size:
+        return
+    keys, texts = pd.factorize(hours[idx])
+    occs = _objects(repeat(None), len(texts))
+    for u, text in enumerate(texts):
+        try:
+            occs[u], _, _ = _occupancy(inv, "", design, _parse_hours_cell(text), None, None,
+                                       order)
+        except (ValueError, InputError):
+            ok[idx[keys == u]] = False
+            continue
+        occs[u].flags.writeable = False  # shared by every row of the same hours
+    out["occupancy"][idx] = occs[keys]
+    out["peak"][idx] = _objects(share[idx].tolist(), idx.size)
+
+
+def _profile_rows(order, idx, profile, share, out) -> None:
+    """Occupancy of rows giving 24 state names, all rows of one design at once.
+
+    The same arithmetic as :func:`_occupancy`, row by row: the diversity share in the
+    hour's state, the rest added to the lightest state.
+    """
+    if not idx.size:
+        return
+    ok = out["ok"]
+    states, light, _heavy = order
+    codes_p, texts = pd.factorize(profile[idx])
+    tokens = list(map(str.split, texts))
+    full = np.fromiter(map(len, tokens), dtype=np.int64, count=len(tokens)) == HOURS
+    index = {s: k for k, s in enumerate(states)}
+    flat = list(chain.from_iterable(compress(tokens, full)))
+    cols = np.full((len(tokens), HOURS), -1, dtype=np.int64)
+    cols[full] = np.fromiter(map(index.get, flat, repeat(-1)), dtype=np.int64,
+                             count=len(flat)).reshape(-1, HOURS)
+    d = share[idx]
+    good = (cols >= 0).all(axis=1)[codes_p] & _share_ok(d)
+    ok[idx[~good]] = False
+    idx, d, c = idx[good], d[good], cols[codes_p[good]]
+    occ = np.zeros((idx.size, HOURS, len(states)))
+    occ[np.arange(idx.size)[:, None], _HOUR_INDEX[None, :], c] += d[:, None]
+    occ[:, :, light] += (1.0 - d)[:, None]
+    occ.flags.writeable = False
+    out["occupancy"][idx] = _objects(occ, idx.size)
 
 
 def load_fleet(path: str | Path) -> FleetSpec:
