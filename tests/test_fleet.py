@@ -17,6 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from tolerances import CANCEL_REL, REL_EXACT, REL_HAND_Q, REL_PARSEVAL
 
+from fleetpower.errors import InputError
 from fleetpower.fleet import evaluate_fleet, unit_catalogue
 from fleetpower.io.fleet_file import load_fleet
 from fleetpower.report import fleet_to_dict
@@ -318,6 +319,102 @@ def _flatten(x, prefix):
             out.update(_flatten(v, f"{prefix}[{k}]"))
         return out
     return {prefix: x}
+
+
+def _random_inventory(designs, n, seed):
+    """``n`` inventory rows over the two designs (seeded): counts, phases, hours or profiles.
+
+    Returns (CSV text, rows as dicts) -- the rows as written, for a reference computed
+    from them without the loader.
+    """
+    rng = np.random.default_rng(seed)
+    rows = []
+    for k in range(n):
+        row = {"name": f"r{k}", "design": (DROPPER, SMPS)[int(rng.integers(2))],
+               "count": int(rng.integers(1, 1000)),
+               "phase": ("L1", "L2", "L3", "balanced")[int(rng.integers(4))],
+               "hours": "", "profile": "", "diversity": ""}
+        if rng.random() < 0.5:
+            h = int(rng.integers(0, 25))
+            row["hours"] = f"active={h} idle={24 - h}"
+        else:
+            row["profile"] = " ".join(("idle", "active")[int(x)] for x in rng.random(24) < 0.3)
+        if rng.random() < 0.3:
+            row["diversity"] = f"{rng.uniform(0.1, 1.0):.3f}"
+        rows.append(row)
+    cols = ["name", "design", "count", "phase", "hours", "profile", "diversity"]
+    text = ",".join(cols) + "\n" + "".join(
+        ",".join(designs[r[c]] if c == "design" else str(r[c]) for c in cols) + "\n"
+        for r in rows)
+    return text, rows
+
+
+def _inventory_fleet(tmp_path, text, name="big"):
+    (tmp_path / f"{name}.csv").write_text(text, encoding="utf-8")
+    path = tmp_path / f"{name}.toml"
+    path.write_text(fleet_text([], inventory=f"{name}.csv"), encoding="utf-8")
+    return path
+
+
+def test_a_fleet_of_1e5_groups_is_the_sum_of_its_units(tmp_path, designs):
+    # Conservation of energy at scale (the invariant itself, no other source): with 10^5
+    # random inventory rows (hours per day or 24-hour profiles, with or without diversity),
+    # the fleet's hourly P and Q1, energy, unit count and reported
+    # kW peak equal a plain group-by-group sum of count x the unit's figures, taken from
+    # the rows as written (not from the loader's groups).
+    text, rows = _random_inventory(designs, 100_000, seed=10)
+    spec = load_fleet(_inventory_fleet(tmp_path, text))
+    assert len(spec.groups) == len(rows)
+    cat = unit_catalogue(spec.designs)
+    res = evaluate_fleet(spec, cat)
+    p = {name: {s: unit(cat, name, s).pq.p_w for s in ("active", "idle")} for name in designs}
+    q = {name: {s: unit(cat, name, s).pq.q1_var for s in ("active", "idle")} for name in designs}
+    p_t, q_t = np.zeros(24), np.zeros(24)
+    coincident_extra_w = 0.0  # hours-per-day groups all at once in their state of most kW
+    for r in rows:
+        n, pu, qu = r["count"], p[r["design"]], q[r["design"]]
+        d = float(r["diversity"] or 1.0)
+        if r["profile"]:  # a share d in the hour's state, the rest in the lightest (idle)
+            states = r["profile"].split()
+            p_t += n * np.array([d * pu[s] + (1 - d) * pu["idle"] for s in states])
+            q_t += n * np.array([d * qu[s] + (1 - d) * qu["idle"] for s in states])
+        else:
+            h = {s: float(x) for s, x in (kv.split("=") for kv in r["hours"].split())}
+            spread_w = sum(pu[s] * x / 24 for s, x in h.items())
+            p_t += n * spread_w
+            q_t += n * sum(qu[s] * x / 24 for s, x in h.items())
+            used = [pu[s] for s, x in h.items() if x > 0]
+            coincident_extra_w += n * (d * max(used) + (1 - d) * min(used) - spread_w)
+    assert res.units == sum(r["count"] for r in rows)
+    assert np.allclose(res.hourly["p_kw"].to_numpy(), p_t / 1e3, rtol=REL_EXACT, atol=0)
+    assert np.allclose(res.hourly["q1_kvar"].to_numpy(), q_t / 1e3, rtol=REL_EXACT, atol=0)
+    assert res.e_kwh_per_year == pytest.approx(p_t.sum() / 1e3 * 365, rel=REL_EXACT)
+    assert res.e_kwh_per_year == pytest.approx(res.groups["e_kwh_per_year"].sum(), rel=REL_EXACT)
+    assert res.groups["count"].tolist() == [r["count"] for r in rows]
+    peak_w = max(p_t.max(), (p_t + coincident_extra_w).max())
+    assert res.p_kw == pytest.approx(peak_w / 1e3, rel=REL_EXACT)
+
+
+def test_a_bad_row_deep_in_a_large_inventory_is_named(tmp_path, designs):
+    # The first bad row of 20,000 is named with its column, whatever comes after it
+    # (the CSV's row 1 is the header, so data row k is row k + 2).
+    text, _rows = _random_inventory(designs, 20_000, seed=11)
+    lines = text.splitlines()
+    cells = lines[15_001].split(",")
+    cells[2] = "12.5"  # not a whole number of units
+    lines[15_001] = ",".join(cells)
+    cells = lines[17_001].split(",")
+    cells[3] = "L9"
+    lines[17_001] = ",".join(cells)
+    with pytest.raises(InputError) as err:
+        load_fleet(_inventory_fleet(tmp_path, "\n".join(lines) + "\n", "bad"))
+    assert err.value.where == "row 15002, column count"
+    assert "whole number" in err.value.message
+    lines[15_001] = text.splitlines()[15_001]
+    with pytest.raises(InputError) as err:
+        load_fleet(_inventory_fleet(tmp_path, "\n".join(lines) + "\n", "bad2"))
+    assert err.value.where == "row 17002, column phase"
+    assert "unknown phase 'L9'" in err.value.message
 
 
 # ----------------------------------------------------------------------------------------
