@@ -98,7 +98,8 @@ def _states_used(groups, sel: np.ndarray, occ: np.ndarray) -> dict[str, list[str
     """
     used: dict[str, list[str]] = {}
     first = groups[int(sel[0])].states
-    if any(groups[j].states != first for j in sel.tolist()):  # not one state order
+    if any(g.states is not first and g.states != first  # not one state order
+           for g in map(groups.__getitem__, sel.tolist())):
         for j in sel.tolist():
             g = groups[j]
             for k, s in enumerate(g.states):
@@ -244,16 +245,16 @@ def _accumulate(w, on_phase, cols, sel, addend) -> None:
 
     ``addend`` is a (groups, hours, states) array such as the groups' occupancies, all of
     one design (whose design-states are the columns ``cols`` of ``w``). The additions into
-    each element of ``w`` happen one group after the other in the groups' order
-    (``np.add.accumulate`` is a running sum), so the sums are the same, bit for bit, as a
-    loop over the groups; a phase a group has no units on adds nothing.
+    each element of ``w`` happen one group after the other in the groups' order (numpy
+    reduces along the first, slow axis of a C-ordered array element by element, without
+    pairwise summation; ``tests/test_fleet.py`` checks it), so the sums are the same, bit
+    for bit, as a loop over the groups; a phase a group has no units on adds nothing.
     """
     for p in range(w.shape[1]):
         n = on_phase[sel, p]
         nz = n != 0
         terms = n[nz][:, None, None] * addend[nz]
-        w[:, p, cols] = np.add.accumulate(np.concatenate([w[None, :, p, cols], terms]),
-                                          axis=0)[-1]
+        w[:, p, cols] = np.add.reduce(np.concatenate([w[None, :, p, cols], terms]), axis=0)
 
 
 def _coincident_occupancy_all(occ: np.ndarray, share: np.ndarray, values) -> np.ndarray:

@@ -395,6 +395,36 @@ def test_a_fleet_of_1e5_groups_is_the_sum_of_its_units(tmp_path, designs):
     assert res.p_kw == pytest.approx(peak_w / 1e3, rel=REL_EXACT)
 
 
+def test_occupancy_tensor_adds_groups_in_their_order_bit_for_bit():
+    # The tensor of units per hour, phase and design-state is summed over the groups in
+    # their order, exactly as a loop over the groups would (so the outputs do not depend
+    # on how the work is batched). Checked against that loop on terms of very different
+    # sizes, where another order (shown: reversed) changes the last bits.
+    from fleetpower.fleet import _accumulate
+
+    rng = np.random.default_rng(5)
+    n_g, n_s = 3000, 3
+    occ = rng.random((n_g, 24, n_s)) * 10.0 ** rng.integers(-12, 12, (n_g, 1, 1))
+    on_phase = rng.integers(0, 5, (n_g, 3)).astype(float)  # some groups absent on a phase
+    sel = np.arange(0, n_g, 2)  # every other group belongs to this design
+    cols = np.array([4, 1, 2])
+    start = rng.random((24, 3, 6))
+    w = start.copy()
+    _accumulate(w, on_phase, cols, sel, occ[sel])
+    loop = start.copy()
+    for g in sel:
+        for p in range(3):
+            if on_phase[g, p]:
+                loop[:, p, cols] = loop[:, p, cols] + on_phase[g, p] * occ[g]
+    assert np.array_equal(w, loop)
+    backwards = start.copy()
+    for g in sel[::-1]:
+        for p in range(3):
+            if on_phase[g, p]:
+                backwards[:, p, cols] = backwards[:, p, cols] + on_phase[g, p] * occ[g]
+    assert not np.array_equal(backwards, loop)  # the order is visible in these sums
+
+
 def test_a_bad_row_deep_in_a_large_inventory_is_named(tmp_path, designs):
     # The first bad row of 20,000 is named with its column, whatever comes after it
     # (the CSV's row 1 is the header, so data row k is row k + 2).
