@@ -53,6 +53,17 @@ def test_limit_listing_leaves_out_pandas_and_numba():
     assert _imported_after(code, ("pandas", "numba", "pint")) == []
 
 
+def test_limit_set_screen_leaves_out_pandas_and_numba():
+    code = (
+        "import contextlib, io\n"
+        "import fleetpower.cli\n"
+        "with contextlib.redirect_stdout(io.StringIO()):\n"
+        "    assert fleetpower.cli.main(['limits', 'iec61000-3-2-class-a']) == 0\n"
+        "    assert fleetpower.cli.main(['limits', 'data/limits/eu-standby.csv']) == 0\n"
+    )
+    assert _imported_after(code, ("pandas", "numba", "pint")) == []
+
+
 def test_help_leaves_out_the_engine():
     code = "import fleetpower.cli\nfleetpower.cli.build_parser().format_help()\n"
     assert _imported_after(code, ("pandas", "numba", "pint", "pydantic")) == []

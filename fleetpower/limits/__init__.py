@@ -24,7 +24,7 @@ _EXPORTS = {
          "evaluate_standby", "evaluate_user_set", "formula_limit", "ieee519_row"),
         "rules"),
     **dict.fromkeys(("COLUMNS", "ComplianceRow", "limits_dir", "list_limit_sets",
-                     "load_limit_set", "load_scopes", "margin", "limit_records",
+                     "load_limit_set", "load_scopes", "margin", "limit_frame", "limit_records",
                      "scope_record", "scope_set_ids"), "tables"),
 }
 
@@ -49,6 +49,7 @@ __all__ = [
     "evaluate_user_set",
     "formula_limit",
     "ieee519_row",
+    "limit_frame",
     "limit_records",
     "limits_dir",
     "list_limit_sets",

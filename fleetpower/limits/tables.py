@@ -604,9 +604,12 @@ def covers_range(rec: Mapping, x: float) -> bool:
     return (np.isnan(lo) or x >= lo) and (np.isnan(hi) or x < hi)
 
 
-def limit_frame(set_or_df: str | Path | pd.DataFrame) -> pd.DataFrame:
-    """A limit set as a DataFrame: a DataFrame as given, else :func:`load_limit_set`."""
-    return load_limit_set(set_or_df) if isinstance(set_or_df, (str, Path)) else set_or_df
+def limit_frame(set_or_df: str | Path | pd.DataFrame | list[dict]) -> pd.DataFrame:
+    """A limit set as a DataFrame: a DataFrame as given, records (:func:`limit_records`)
+    as a frame of the same columns, else :func:`load_limit_set`."""
+    if isinstance(set_or_df, (str, Path)):
+        return load_limit_set(set_or_df)
+    return _frame(set_or_df) if isinstance(set_or_df, list) else set_or_df
 
 
 def limit_records(set_or_df: str | Path | pd.DataFrame | list[dict]) -> list[dict]:
