@@ -319,6 +319,16 @@ def test_inventory_unknown_column(cli, folder):
     assert "unknown column" in line
 
 
+@pytest.mark.parametrize("ref", [[], ["inventory.csv"], 3, {"file": "inventory.csv"}])
+def test_inventory_not_a_path_names_the_key(cli, folder, ref):
+    # found by the robustness properties: `inventory = []` was a TypeError (exit 4)
+    data = base_fleet()
+    data["inventory"] = ref
+    path = write_fleet(folder, data)
+    line = one_line_error(cli, path, path, "inventory")
+    assert "expected the path of a CSV file" in line
+
+
 def test_inventory_row_with_a_bad_design_names_the_design_file(cli, folder):
     # an error inside a design file is that file's error (file and key), not a CSV column
     text = (folder / "dropper.toml").read_text("utf-8")

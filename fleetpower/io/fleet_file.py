@@ -585,6 +585,9 @@ def load_fleet(path: str | Path) -> FleetSpec:
             raise InputError(file, f"group[{k + 1}]", "expected a table")
         groups.append(_group(file, f"group[{k + 1}].", g, path.parent, site, cache, k))
     if "inventory" in data:
+        if not isinstance(data["inventory"], str):
+            raise InputError(file, "inventory", "expected the path of a CSV file (text), got "
+                             f"{type(data['inventory']).__name__}")
         groups += _inventory(file, data["inventory"], path.parent, site, cache, len(groups))
     if not groups:
         raise InputError(file, "group", "the fleet has no groups (add [[group]] or inventory)")
