@@ -42,6 +42,10 @@ import tolerances as tol  # noqa: E402
 
 from fleetpower import simulate as sim  # noqa: E402
 from fleetpower.engine import solver  # noqa: E402
+from fleetpower.spread.study import (  # noqa: E402
+    SPREAD_PERIODIC_RTOL,
+    SPREAD_SAMPLES_PER_CYCLE,
+)
 
 CASES = [
     ("dropper-half-wave", "active"),
@@ -62,6 +66,10 @@ SETTINGS = [
     (2048, 64, 0), (2048, 96, 0), (2048, 128, 0), (2048, 256, 0), (1024, 96, 0), (512, 96, 0),
     (2048, 0, 1024), (1024, 0, 512), (512, 0, 256),
 ]
+#: a spread's accuracy settings (fleetpower.spread.study): steps per cycle, periodicity
+#: tolerance; cold here (a spread warm-starts from the nominal: fewer evaluations, same
+#: fixed point)
+SPREAD_SETTINGS = [(1024, 1e-6), (512, 1e-6), (256, 1e-6), (256, 1e-5), (128, 1e-6)]
 #: residual evaluations per case (mean over CASES) of the former default -- 2048 steps,
 #: cold start, linear predictor and a residual re-evaluated after every step's Newton
 #: iteration -- counted by this benchmark at commit 593453f (counts are deterministic:
@@ -101,11 +109,11 @@ def richardson(fine, coarse):
         residual_evaluations=fine.residual_evaluations + coarse.residual_evaluations)
 
 
-def solve(cases, n: int, coarse_start: int):
+def solve(cases, n: int, coarse_start: int, periodic_rtol: float | None = None):
     """Uncached results at one setting (the coarse start set through the executor seam)."""
     def executor(func, items, on_done=None):
         return [func(dataclasses.replace(b, coarse_start=coarse_start)) for b in items]
-    return sim.run(cases, n, cache=None, executor=executor)
+    return sim.run(cases, n, cache=None, executor=executor, periodic_rtol=periodic_rtol)
 
 
 def main() -> int:
@@ -139,6 +147,17 @@ def main() -> int:
                 else f"{n} from {nc}-step start" if nc else f"{n} cold")
         print(f"{name:<28}{r['used']:>9.4f}{r['p']:>10.2e}{r['i']:>10.2e}{r['harm']:>10.2e}"
               f"{r['loss']:>10.2e}{r['evals']:>11.0f}{FORMER_DEFAULT_EVALS / r['evals']:>8.1f}")
+    for n, rtol in SPREAD_SETTINGS:
+        res = solve(cases, n, 0, rtol)
+        errs = [errors(r, refs[c]) for r, c in zip(res, CASES, strict=True)]
+        r = {**{k: max(e[k] for e in errs) for k in errs[0]},
+             "evals": float(np.mean([x.residual_evaluations for x in res]))}
+        mark = " (spread default)" if (n, rtol) == (SPREAD_SAMPLES_PER_CYCLE,
+                                                     SPREAD_PERIODIC_RTOL) else ""
+        name = f"{n} cold, periodic {rtol:.0e}"
+        print(f"{name:<28}{r['used']:>9.4f}{r['p']:>10.2e}{r['i']:>10.2e}{r['harm']:>10.2e}"
+              f"{r['loss']:>10.2e}{r['evals']:>11.0f}{FORMER_DEFAULT_EVALS / r['evals']:>8.1f}"
+              f"{mark}")
     default = (solver.DEFAULT_SAMPLES_PER_CYCLE, solver.DEFAULT_COARSE_START, 0)
     d = rows[default]
     same = rows[(2048, 0, 0)]

@@ -420,9 +420,11 @@ def cmd_spread(args) -> int:
         runner = contextlib.nullcontext(local_executor)
     _engine_ready()
     with _status("solving the nominal design"):
+        accuracy = {} if args.steps is None else {"samples_per_cycle": args.steps}
         plan = plan_spread(design, samples=args.samples, seed=args.seed, corners=args.corners,
                            mains_band=band, class_defaults=False if args.declared_only else None,
-                           limits_file=args.limits, check_limits=not args.no_limits)
+                           limits_file=args.limits, check_limits=not args.no_limits,
+                           **accuracy)
     with runner as executor, progress:
         task = progress.add_task("units", total=plan.n)
         result = run_spread(plan, executor=executor, chunk_size=args.chunk,
@@ -658,6 +660,10 @@ def build_parser() -> argparse.ArgumentParser:
                     help="workers of the local Dask cluster (default 2)")
     sp.add_argument("--chunk", type=int, default=128, metavar="N",
                     help="units solved per batch (default 128)")
+    sp.add_argument("--steps", type=int, default=None, metavar="N",
+                    help="steps per mains cycle of each unit's solve, the accuracy setting "
+                         "(default 256: worst error 0.36 %% of I rms against the reference "
+                         "tests, see DEVELOPERS.md; `unit` uses 2048)")
     sp.add_argument("--limits", metavar="FILE",
                     help="an extra limit-set file (CSV) to check every unit against")
     sp.add_argument("--no-limits", action="store_true",

@@ -83,9 +83,8 @@ def dask_executor(
         Scheduler address (``"tcp://host:8786"``). Without it a local cluster of
         ``n_workers`` workers is started for the block and closed after it.
     n_workers, threads_per_worker : int
-        Size of the local cluster. One thread per worker: the compiled engine runs its
-        own threads, and its parallel layer must not be entered from two threads of one
-        process at once.
+        Size of the local cluster. One thread per worker: the engine shoots a batch's
+        rows on its own threads (one per core) already.
     processes : bool
         Local workers as processes (default; each has its own compiled engine) or as
         threads of this process.

@@ -33,7 +33,7 @@ from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, SteadyState, solve_periodi
 from .errors import InputError, suggest
 from .executors import local_executor
 from .io.design_file import Design
-from .pq.ieee1459 import PowerQuality, power_quality
+from .pq.ieee1459 import PowerQuality, power_quality_rows
 from .pq.spectrum import phasors_vs_voltage
 
 if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is built)
@@ -60,9 +60,11 @@ def design_key(design: Design) -> str:
     return hashlib.sha256(blob).hexdigest()
 
 
-def case_key(case: Case, samples_per_cycle: int) -> tuple:
-    return (design_key(case.design), case.state, float(case.mains_factor),
-            None if case.load_a is None else float(case.load_a), int(samples_per_cycle))
+def case_key(case: Case, samples_per_cycle: int, periodic_rtol: float | None = None) -> tuple:
+    key = (design_key(case.design), case.state, float(case.mains_factor),
+           None if case.load_a is None else float(case.load_a), int(samples_per_cycle))
+    # an accuracy setting other than the default's periodicity tolerance is its own result
+    return key if periodic_rtol is None else (*key, float(periodic_rtol))
 
 
 @dataclass(frozen=True)
@@ -153,15 +155,19 @@ class StateResult:
 def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
     idx = {name: k for k, name in enumerate(layout.PROBES)}
     results = []
+    # over the whole batch at once: per case, numpy's call overhead dominated a spread
+    means = sol.probes.mean(axis=1)
+    pqs = power_quality_rows(sol.probes[:, :, idx["v_terminal_v"]],
+                             sol.probes[:, :, idx["i_line_a"]])
     for b, case in enumerate(cases):
         design, state, factor = case.design, case.state, case.mains_factor
         load_a = design.load_current_a(state) if case.load_a is None else case.load_a
         pr = sol.probes[b]
-        mean = pr.mean(axis=0)
+        mean = means[b]
         # measured at the supply's terminals (README "Where P is measured")
         v = pr[:, idx["v_terminal_v"]]
         i = pr[:, idx["i_line_a"]]
-        pq = power_quality(v, i)
+        pq = pqs[b]
         labels = design.topology_impl.loss_labels()
         losses = {
             labels[k]: float(mean[idx[k]])
@@ -292,12 +298,17 @@ class Batch:
     labels: list[str]
     #: steps per cycle of the engine's coarse first solve (None: its default; 0: none)
     coarse_start: int | None = None
+    #: periodicity tolerance of the engine (None: its default, ``PERIODIC_RTOL``)
+    periodic_rtol: float | None = None
 
 
 def solve_batch(batch: Batch) -> SteadyState:
     """Solve one batch of engine rows (the function executors run)."""
+    if batch.periodic_rtol is None:
+        return solve_periodic(batch.params, batch.x0, batch.samples_per_cycle, batch.labels,
+                              coarse_start=batch.coarse_start)
     return solve_periodic(batch.params, batch.x0, batch.samples_per_cycle, batch.labels,
-                          coarse_start=batch.coarse_start)
+                          coarse_start=batch.coarse_start, periodic_rtol=batch.periodic_rtol)
 
 
 def circuit_rows(design: Design, state: str, mains_factor: float = 1.0,
@@ -322,11 +333,13 @@ def run(
     executor=local_executor,
     initial: list[tuple[float, ...] | None] | None = None,
     coarse_start: int | None = None,
+    periodic_rtol: float | None = None,
 ) -> list[StateResult]:
     """Solve cases (of any number of designs) in one batch; results in the order of cases.
 
     Cases found in ``cache`` are not solved again; duplicates within ``cases`` are solved
-    once. ``executor`` runs the batch (:mod:`fleetpower.executors`). ``initial`` gives, per
+    once (with ``cache=None``: duplicates of the same design object). ``executor`` runs
+    the batch (:mod:`fleetpower.executors`). ``initial`` gives, per
     case, a starting guess of the engine unknowns in place of the topology's (a near
     solution's :attr:`StateResult.x_start`); the engine's coarse first solve starts from
     it, and the result does not depend on it beyond the solver's periodicity tolerance.
@@ -334,9 +347,14 @@ def run(
     chosen by measurement, DEVELOPERS.md "Accuracy per cost"). ``coarse_start`` sets the
     steps of the engine's coarse first solve (None: the engine's default; 0: none); it
     changes the cost, not the result (beyond the periodicity tolerance), so it is not part
-    of the cache key.
+    of the cache key. ``periodic_rtol`` (None: the engine's default) is the other half of
+    an accuracy setting (the periodicity tolerance); it is part of the key.
     """
-    keys = [case_key(c, samples_per_cycle) for c in cases]
+    # without a cache, duplicates are found by object (hashing each design's content costs
+    # ~40 us a case, a sixth of a spread sample's solve at its accuracy setting)
+    keys = ([case_key(c, samples_per_cycle, periodic_rtol) for c in cases]
+            if cache is not None else
+            [(id(c.design), c.state, float(c.mains_factor), c.load_a) for c in cases])
     out: list[StateResult | None] = [None] * len(cases)
     todo: dict[tuple, list[int]] = {}
     for k, key in enumerate(keys):
@@ -363,7 +381,8 @@ def run(
         labels = [f"{cases[k].design.name} / {cases[k].state} at "
                   f"{cases[k].mains_factor:.2f}x mains" for k in first]
         (sol,) = executor(solve_batch, [Batch(np.array(rows), np.array(x0s),
-                                              samples_per_cycle, labels, coarse_start)])
+                                              samples_per_cycle, labels, coarse_start,
+                                              periodic_rtol)])
         solved = _state_results([cases[k] for k in first], sol)
         if cache is not None:
             cache.solves += len(first)

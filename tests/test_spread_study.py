@@ -105,16 +105,12 @@ def test_interrupt_reports_the_samples_done_so_far(plan):
 
 def test_spread_on_a_dask_local_cluster_equals_the_local_run(plan):
     pytest.importorskip("distributed")
-    import numba
-
     from fleetpower.executors import dask_executor
 
     local = run_spread(plan, chunk_size=3, executor=local_executor)
-    # two workers; as threads of this process (quick) where the compiled engine's
-    # threading layer may be entered from two threads at once (omp, tbb; numba docs,
-    # "Selecting a threading layer"), else as processes
-    threads_ok = numba.threading_layer() in ("omp", "tbb")
-    with dask_executor(n_workers=2, processes=not threads_ok) as run:
+    # two workers as threads of this process (quick): the compiled engine is plain
+    # GIL-releasing functions on per-call arrays, safe to enter from two threads at once
+    with dask_executor(n_workers=2, processes=False) as run:
         remote = run_spread(plan, chunk_size=3, executor=run)
     for name in ("active|p_w", "idle|v_dc_min_v"):
         assert remote.statistics.values(name).tobytes() == \

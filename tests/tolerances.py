@@ -20,6 +20,12 @@ BALANCE_PCT = 0.5
 #: (the P budget of the acceptance, applied to its parts)
 LOSS_OF_P_IN = 0.01
 
+#: a spread's accuracy setting (256 steps per cycle, periodicity 1e-6) against the
+#: reference and against unit's 2048 steps, relative (P, I rms, S, V dc) or as a fraction
+#: of I1 (harmonics) / of P in (delivered power): its measured worst error is 0.36 % of
+#: I rms (benchmarks/bench_accuracy.py, DEVELOPERS.md "Accuracy per cost"), so 0.5 %
+SPREAD_SETTING_REL = 0.005
+
 # --- the reference's own convergence ---------------------------------------------------
 #: largest cycle-to-cycle change of the reference's line current, relative to its peak,
 #: before its last cycle is used: three orders below the 1 % acceptance so the

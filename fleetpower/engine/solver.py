@@ -43,11 +43,13 @@ References
 from __future__ import annotations
 
 import math
+import threading
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numba
 import numpy as np
-from numba import njit, prange
+from numba import njit
 
 from ..errors import SolverError
 from .circuits import jacobian, mass_vector, probes, residual
@@ -85,9 +87,14 @@ MAX_NEWTON_ITERATIONS = 40
 #: full Newton steps allowed to raise the periodicity residual in a row (watchdog)
 WATCHDOG_STEPS = 3
 WATCHDOG_OFF = -(10**6)  # after a watchdog restart: monotone search until progress
+#: the watchdog lets a full step raise the periodicity residual only while the residual
+#: is above this: nearer the fixed point (a warm start) a rise means the step crossed a
+#: diode's knee too far, and halving it is cheaper than wandering (measured on spread
+#: samples: DEVELOPERS.md "Accuracy per cost")
+RELAXED_ABOVE = 1e-2
 #: Newton step size, relative to the unknown's scale, below which a time step is accepted
-#: (the accepted point's own error is then O(step^2), ~1e-12 of the scale); the quadratic
-#: predictor's O(h^3) error is below it at the default step, so most steps need one
+#: (the accepted point's own error is then O(step^2), ~1e-12 of the scale); the cubic
+#: predictor's O(h^4) error is below it at the default step, so most steps need one
 #: iteration
 NEWTON_RTOL = 1e-6
 
@@ -108,7 +115,7 @@ STATUS_TEXT = {
 }
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True)
 def _solve_small(a, b, n):
     """Solve a x = b in place (Gaussian elimination, partial pivoting); b becomes x.
 
@@ -217,12 +224,70 @@ def _consistent(x, t, p, m, scale, info):
 
 
 @njit(cache=True)
-def _one_cycle(p, x0, n_steps, m, scale, xs, sens, info, newton_rtol):
+def _lu_factor(a, piv, n):
+    """LU-factor ``a`` in place (Gaussian elimination, partial pivoting; L's multipliers
+    below the diagonal, row swaps in ``piv``). Returns False on a singular matrix.
+
+    The same operations in the same order as :func:`_solve_small`, so solving with
+    :func:`_lu_solve` afterwards gives bit for bit its result.
+    """
+    for k in range(n):
+        piv[k] = k
+        big = abs(a[k, k])
+        for r in range(k + 1, n):
+            if abs(a[r, k]) > big:
+                big = abs(a[r, k])
+                piv[k] = r
+        if big == 0.0 or not math.isfinite(big):
+            return False
+        pk = piv[k]
+        if pk != k:
+            for c in range(n):
+                tmp = a[k, c]
+                a[k, c] = a[pk, c]
+                a[pk, c] = tmp
+        for r in range(k + 1, n):
+            fac = a[r, k] / a[k, k]
+            a[r, k] = fac
+            if fac != 0.0:
+                for c in range(k + 1, n):
+                    a[r, c] -= fac * a[k, c]
+    return True
+
+
+@njit(cache=True)
+def _lu_solve(a, piv, b, n, ncol):
+    """Solve with the factors of :func:`_lu_factor`; the first ``ncol`` columns of ``b``
+    become the solution."""
+    for k in range(n):  # every row swap first: a's rows (L with them) were swapped whole
+        pk = piv[k]
+        if pk != k:
+            for c in range(ncol):
+                tmp = b[k, c]
+                b[k, c] = b[pk, c]
+                b[pk, c] = tmp
+    for k in range(n):
+        for r in range(k + 1, n):
+            fac = a[r, k]
+            if fac != 0.0:
+                for c in range(ncol):
+                    b[r, c] -= fac * b[k, c]
+    for k in range(n - 1, -1, -1):
+        for c in range(ncol):
+            s = b[k, c]
+            for j in range(k + 1, n):
+                s -= a[k, j] * b[j, c]
+            b[k, c] = s / a[k, k]
+
+
+@njit(cache=True)
+def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol):
     """Integrate one period from ``x0``; store states in ``xs`` (n_steps+1, n).
 
-    ``sens`` (n, n) receives d x(T) / d x0 along the differential directions (columns of
-    algebraic unknowns are zero). Returns a status code. Residual and Jacobian
-    evaluations are counted in ``info`` (see :func:`_shoot`).
+    ``sens`` (n, nd) receives d x(T) / d x0 along the ``nd`` differential directions
+    ``idx`` (the algebraic unknowns follow from them). Returns a
+    status code. Residual and Jacobian evaluations are counted in ``info`` (see
+    :func:`_shoot`).
     """
     n = N_STATES
     period = 2.0 * math.pi / p[P_OMEGA]
@@ -232,44 +297,50 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, info, newton_rtol):
     jac_old = np.empty((n, n))
     jac_new = np.empty((n, n))
     a = np.empty((n, n))
-    a2 = np.empty((n, n))
+    piv = np.empty(n, dtype=np.int64)
     b = np.empty((n, 1))
-    rhs = np.empty((n, n))
-    s = np.zeros((n, n))
+    rhs = np.empty((n, nd))
+    s = np.zeros((n, nd))
     x = x0.copy()
 
-    # initial sensitivity, column j for each differential unknown j: the differential
-    # rows are the unit vector e_j, the algebraic rows follow from J_aa ds_a = -J_ad e_j.
     residual(x, 0.0, p, f_old)
     _jacobian(x, 0.0, p, f_old, jac_old, scale)
     info[INFO_RESIDUALS] += 1
     info[INFO_JACOBIANS] += 1
+    # initial sensitivity, column c for differential unknown j = idx[c]: the
+    # differential rows are the unit vector e_j, the algebraic rows follow from
+    # J_aa ds_a = -J_ad e_j
     for i in range(n):
         for j in range(n):
             if m[i] > 0.0:
                 a[i, j] = 1.0 if i == j else 0.0
-                rhs[i, j] = 1.0 if i == j else 0.0
             else:
                 a[i, j] = jac_old[i, j]
-                rhs[i, j] = 0.0
-    if not _solve_small(a, rhs, n):
+        for c in range(nd):
+            rhs[i, c] = 1.0 if (m[i] > 0.0 and i == idx[c]) else 0.0
+    if not _lu_factor(a, piv, n):
         return STATUS_STEP_FAILED
+    _lu_solve(a, piv, rhs, n, nd)
     for i in range(n):
-        for j in range(n):
-            s[i, j] = rhs[i, j] if m[j] > 0.0 else 0.0
+        for c in range(nd):
+            s[i, c] = rhs[i, c]
 
     for i in range(n):
         xs[0, i] = x[i]
     x_prev = x.copy()
     x_prev2 = x.copy()
+    x_prev3 = x.copy()
     xn = np.empty(n)
     for k in range(n_steps):
         t1 = (k + 1) * h
-        # predictor: the quadratic through the last three points (linear at the second
-        # step, constant at the first); its error O(h^3) is below the Newton tolerance at
-        # a fine step, so most steps take one Newton iteration
+        # predictor: the cubic through the last four points (lower orders at the first
+        # steps); its error O(h^4) is below the Newton tolerance at a fine step, so most
+        # steps take one Newton iteration (a quadratic's O(h^3) took two per step at 256
+        # steps per cycle: DEVELOPERS.md "Accuracy per cost")
         for i in range(n):
-            if k > 1:
+            if k > 2:
+                xn[i] = 4.0 * x[i] - 6.0 * x_prev[i] + 4.0 * x_prev2[i] - x_prev3[i]
+            elif k > 1:
                 xn[i] = 3.0 * x[i] - 3.0 * x_prev[i] + x_prev2[i]
             elif k == 1:
                 xn[i] = 2.0 * x[i] - x_prev[i]
@@ -291,8 +362,9 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, info, newton_rtol):
                     b[i, 0] = -f_new[i]
                     for j in range(n):
                         a[i, j] = jac_new[i, j]
-            if not _solve_small(a, b, n):
+            if not _lu_factor(a, piv, n):
                 return STATUS_STEP_FAILED
+            _lu_solve(a, piv, b, n, 1)
             done = True
             for i in range(n):
                 xn[i] += b[i, 0]
@@ -314,29 +386,22 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, info, newton_rtol):
             for j in range(n):
                 acc += jac_new[i, j] * b[j, 0]
             f_new[i] = acc
-        # sensitivity: A_new s_{k+1} = -B_old s_k
+        # sensitivity: A_new s_{k+1} = -B_old s_k, where A_new is the Newton matrix
+        # of the last iterate, already factored in ``a``
         for i in range(n):
-            if m[i] > 0.0:
-                for j in range(n):
-                    a2[i, j] = -0.5 * h * jac_new[i, j]
-                a2[i, i] += m[i]
-            else:
-                for j in range(n):
-                    a2[i, j] = jac_new[i, j]
-        for i in range(n):
-            for c in range(n):
+            for c in range(nd):
                 acc = 0.0
                 if m[i] > 0.0:
                     acc = m[i] * s[i, c]
                     for j in range(n):
                         acc += 0.5 * h * jac_old[i, j] * s[j, c]
                 rhs[i, c] = acc
-        if not _solve_small(a2, rhs, n):
-            return STATUS_STEP_FAILED
+        _lu_solve(a, piv, rhs, n, nd)
         for i in range(n):
-            for c in range(n):
+            for c in range(nd):
                 s[i, c] = rhs[i, c]
         for i in range(n):
+            x_prev3[i] = x_prev2[i]
             x_prev2[i] = x_prev[i]
             x_prev[i] = x[i]
             x[i] = xn[i]
@@ -345,12 +410,12 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, info, newton_rtol):
             for j in range(n):
                 jac_old[i, j] = jac_new[i, j]
     for i in range(n):
-        for j in range(n):
-            sens[i, j] = s[i, j]
+        for c in range(nd):
+            sens[i, c] = s[i, c]
     return STATUS_OK
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True)
 def _periodic_norm(x0, x1, idx, nd, scale):
     worst = 0.0
     for r in range(nd):
@@ -362,12 +427,25 @@ def _periodic_norm(x0, x1, idx, nd, scale):
 @njit(cache=True)
 def _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info, newton_rtol):
     """One cycle from ``x``; returns (status, periodicity norm) and fills ``x_end``."""
-    status = _one_cycle(p, x, n_steps, m, scale, xs, sens, info, newton_rtol)
+    status = _one_cycle(p, x, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol)
     if status != STATUS_OK:
         return status, np.inf
     for i in range(x.shape[0]):
         x_end[i] = xs[n_steps, i]
     return status, _periodic_norm(x, x_end, idx, nd, scale)
+
+
+@njit(cache=True)
+def _differential_unknowns(m, idx):
+    """Fill ``idx`` with the rows of non-zero mass; returns how many (a typed count: a
+    counter started from the literal 0 in the caller made numba compile every function
+    it is passed to twice, once for the literal)."""
+    nd = 0
+    for i in range(m.shape[0]):
+        if m[i] > 0.0:
+            idx[nd] = i
+            nd += 1
+    return nd
 
 
 @njit(cache=True)
@@ -399,13 +477,9 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
     if not _consistent(x, 0.0, p, m, scale, info):
         info[0] = STATUS_STEP_FAILED
         return
-    sens = np.empty((n, n))
-    nd = 0
     idx = np.empty(n, dtype=np.int64)
-    for i in range(n):
-        if m[i] > 0.0:
-            idx[nd] = i
-            nd += 1
+    nd = _differential_unknowns(m, idx)
+    sens = np.empty((n, nd))
     a = np.empty((nd, nd))
     b = np.empty((nd, 1))
     xt = np.empty(n)
@@ -428,7 +502,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
         for r in range(nd):
             i = idx[r]
             for cc in range(nd):
-                a[r, cc] = sens[i, idx[cc]] - (1.0 if r == cc else 0.0)
+                a[r, cc] = sens[i, cc] - (1.0 if r == cc else 0.0)
             b[r, 0] = -(x_end[i] - x[i])
         if not _solve_small(a, b, nd):
             for r in range(nd):
@@ -472,7 +546,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
             if st != STATUS_OK:
                 continue
             decrease = trial < (1.0 - 2e-4 * lam) * norm
-            relaxed = ls == 0 and 0 <= watch < WATCHDOG_STEPS and trial < 50.0 * norm
+            relaxed = ls == 0 and 0 <= watch < WATCHDOG_STEPS and trial < 50.0 * norm and norm > RELAXED_ABOVE
             if decrease or relaxed:
                 if not decrease and watch == 0:
                     for i in range(n):
@@ -490,9 +564,12 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
                 break
         if not accepted:
             # fall back to one plain cycle from the last accepted state (a physical
-            # transient, which always makes progress towards a stable steady state)
-            for r in range(nd):
-                x[idx[r]] = x_end[idx[r]]
+            # transient, which always makes progress towards a stable steady state); its
+            # end is consistent at t = T, so at t = 0 (the source is periodic): its
+            # algebraic unknowns are the start the consistency solve needs (from the
+            # cycle's start values it could fail where a rectifier's KCL is flat)
+            for i in range(n):
+                x[i] = x_end[i]
             if not _consistent(x, 0.0, p, m, scale, info):
                 status = STATUS_STEP_FAILED
                 break
@@ -520,10 +597,30 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
             out_probe[k, j] = pr[j]
 
 
-@njit(cache=True, parallel=True)
-def _shoot_batch(params, x0, n_steps, xs, out_probe, info, tols):
-    for b in prange(params.shape[0]):
+@njit(cache=True, nogil=True)
+def _shoot_rows(params, x0, n_steps, xs, out_probe, info, tols, start, stop):
+    """Shoot rows ``start .. stop-1`` of a batch (rows are independent; the GIL is
+    released, so threads of one process run several ranges at once)."""
+    for b in range(start, stop):
         _shoot(params[b], x0[b], n_steps, xs[b], out_probe[b], info[b], tols)
+
+
+#: the batch's worker threads by count (made on first use, kept for the process)
+_POOLS: dict[int, ThreadPoolExecutor] = {}
+_POOL_LOCK = threading.Lock()
+
+
+def engine_threads() -> int:
+    """Threads a batch runs on: ``NUMBA_NUM_THREADS`` when set, else one per core."""
+    return max(1, int(numba.config.NUMBA_NUM_THREADS))
+
+
+def _pool(threads: int) -> ThreadPoolExecutor:
+    with _POOL_LOCK:
+        if threads not in _POOLS:
+            _POOLS[threads] = ThreadPoolExecutor(max_workers=threads,
+                                                 thread_name_prefix="fleetpower-engine")
+        return _POOLS[threads]
 
 
 @dataclass(frozen=True)
@@ -566,22 +663,29 @@ class SteadyState:
 
 
 def _run_batch(params: np.ndarray, x0: np.ndarray, n: int, rtol: float = PERIODIC_RTOL,
-               newton_rtol: float = NEWTON_RTOL):
-    """Shoot every row at ``n`` steps per cycle: (states, probes, info) arrays."""
+               newton_rtol: float = NEWTON_RTOL, threads: int | None = None):
+    """Shoot every row at ``n`` steps per cycle: (states, probes, info) arrays.
+
+    Rows are shot in ranges by ``threads`` threads (default :func:`engine_threads`); each
+    row is independent of the others, so the result is the same for any number.
+    """
     tols = np.array([rtol, newton_rtol])
     batch = params.shape[0]
     xs = np.empty((batch, n + 1, N_STATES))
     pr = np.empty((batch, n, N_PROBES))
     info = np.zeros((batch, N_INFO))
-    if batch == 1:  # one row: no worker threads to wake and spin (2x on a busy machine)
-        threads = numba.get_num_threads()
-        numba.set_num_threads(1)
-        try:
-            _shoot_batch(params, x0, n, xs, pr, info, tols)
-        finally:
-            numba.set_num_threads(threads)
-    else:
-        _shoot_batch(params, x0, n, xs, pr, info, tols)
+    threads = min(engine_threads() if threads is None else max(1, int(threads)), batch)
+    if threads <= 1:  # one row or one thread: no pool to wake
+        _shoot_rows(params, x0, n, xs, pr, info, tols, 0, batch)
+        return xs, pr, info
+    # ranges of a few rows, handed out as threads free up: a row needing many shooting
+    # cycles does not hold up the rest
+    step = max(1, batch // (8 * threads))
+    ranges = [(a, min(a + step, batch)) for a in range(0, batch, step)]
+    futures = [_pool(threads).submit(_shoot_rows, params, x0, n, xs, pr, info, tols, a, b)
+               for a, b in ranges]
+    for f in futures:
+        f.result()
     return xs, pr, info
 
 
@@ -592,6 +696,8 @@ def solve_periodic(
     labels: list[str] | None = None,
     raise_on_failure: bool = True,
     coarse_start: int | None = None,
+    periodic_rtol: float = PERIODIC_RTOL,
+    threads: int | None = None,
 ) -> SteadyState:
     """Solve a batch of circuit variants to periodic steady state.
 
@@ -613,6 +719,13 @@ def solve_periodic(
         :data:`COARSE_RTOL`) starts the real one (default :data:`DEFAULT_COARSE_START`;
         0 or >= ``samples_per_cycle``: none). Pass 0 when ``x0`` is already a near
         solution. See Notes.
+    periodic_rtol : float
+        Periodicity tolerance max |x(T) - x(0)| / scale of the accepted cycle (default
+        :data:`PERIODIC_RTOL`); part of an accuracy setting (a spread's is looser, see
+        ``fleetpower.spread.study``).
+    threads : int, optional
+        Threads the batch's rows are shot on (default :func:`engine_threads`); the
+        result does not depend on it.
 
     Returns
     -------
@@ -632,16 +745,16 @@ def solve_periodic(
     n = int(samples_per_cycle)
     nc = DEFAULT_COARSE_START if coarse_start is None else int(coarse_start)
     if 0 < nc < n:
-        xs_c, _, info_c = _run_batch(params, x0, nc, COARSE_RTOL, COARSE_NEWTON_RTOL)
+        xs_c, _, info_c = _run_batch(params, x0, nc, COARSE_RTOL, COARSE_NEWTON_RTOL, threads)
         ok = info_c[:, 0] == STATUS_OK
         # each fine solve starts where its coarse one settled (else where it was asked to)
         x_warm = np.ascontiguousarray(np.where(ok[:, None], xs_c[:, 0, :], x0))
-        xs, pr, info = _run_batch(params, x_warm, n)
+        xs, pr, info = _run_batch(params, x_warm, n, periodic_rtol, NEWTON_RTOL, threads)
         info[:, 1] += info_c[:, 1]
         info[:, INFO_RESIDUALS] += info_c[:, INFO_RESIDUALS]
         info[:, INFO_JACOBIANS] += info_c[:, INFO_JACOBIANS]
     else:
-        xs, pr, info = _run_batch(params, x0, n)
+        xs, pr, info = _run_batch(params, x0, n, periodic_rtol, NEWTON_RTOL, threads)
     bad = np.flatnonzero(info[:, 0] != STATUS_OK)
     if bad.size and raise_on_failure:
         b = int(bad[0])
@@ -667,7 +780,7 @@ def solve_periodic(
 # ----------------------------------------------------------------------------------
 #: the one signature the batch entry point is called with (see :func:`solve_periodic`)
 _BATCH_SIGNATURE = "(float64[:, ::1], float64[:, ::1], int64, float64[:, :, ::1], " \
-                   "float64[:, :, ::1], float64[:, ::1], float64[::1])"
+                   "float64[:, :, ::1], float64[:, ::1], float64[::1], int64, int64)"
 
 
 def engine_is_compiled() -> bool:
@@ -676,10 +789,10 @@ def engine_is_compiled() -> bool:
     Reads numba's cache index (which numba itself discards when the source changed);
     when that cannot be read, says True, so at worst a note is not printed.
     """
-    if _shoot_batch.signatures:
+    if _shoot_rows.signatures:
         return True
     try:
-        index = _shoot_batch._cache._cache_file._load_index()
+        index = _shoot_rows._cache._cache_file._load_index()
     except Exception:  # numba's internals moved: do not guess
         return True
     return bool(index)
@@ -687,4 +800,4 @@ def engine_is_compiled() -> bool:
 
 def compile_engine() -> None:
     """Compile (or load from numba's cache) the batch entry point without solving."""
-    _shoot_batch.compile(_BATCH_SIGNATURE)
+    _shoot_rows.compile(_BATCH_SIGNATURE)

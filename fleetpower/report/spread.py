@@ -75,6 +75,7 @@ def spread_to_dict(result: SpreadResult) -> dict:
                  "done so far" if result.interrupted else None),
         "conditions": "each unit at its own sampled mains; stresses and limits evaluated "
                       "on each unit (the mains band replaces the fixed +10 % of `unit`)",
+        "accuracy": _accuracy(plan),
         "caution": None if plan.design.is_isolated else NON_ISOLATION_NOTE,
         "tolerances": [_spread_row(s) for s in plan.spreads],
         "figures": figures,
@@ -97,6 +98,20 @@ def spread_to_dict(result: SpreadResult) -> dict:
             "p5_fails_year": ag.p5_fails_year,
         }
     return out
+
+
+def _accuracy(plan) -> dict:
+    """The run's accuracy setting and what it was measured to cost in accuracy."""
+    from ..spread.study import SPREAD_SAMPLES_PER_CYCLE
+
+    n = plan.samples_per_cycle
+    measured = {256: "worst error 0.36 % of I rms, 0.011 % of P",
+                2048: "worst error 0.004 % of I rms, 0.001 % of P"}.get(n)
+    note = (f"{n} steps per mains cycle"
+            + (" (the spread default)" if n == SPREAD_SAMPLES_PER_CYCLE else "")
+            + (f"; against the reference tests: {measured}" if measured else "")
+            + " (DEVELOPERS.md, Accuracy per cost)")
+    return {"steps_per_cycle": n, "periodic_rtol": plan.periodic_rtol, "note": note}
 
 
 def _fmt(x, unit: str = "") -> str:
@@ -125,6 +140,7 @@ def render_spread(report: dict, console) -> None:
     what = (f"{s['done']} Monte Carlo samples (seed {report['seed']})"
             if report["mode"] == "monte-carlo" else f"{s['done']} corners")
     console.print(f"[bold]{report['design']}[/bold] — spread of a production run: {what}")
+    console.print(f"Accuracy: {report['accuracy']['note']}")
     if report["note"]:
         console.print(f"[yellow]{report['note']}[/yellow]")
     if report["caution"]:

@@ -21,6 +21,7 @@ Owns: :class:`SpreadPlan`, :class:`SpreadResult`, :class:`AgeingResult`,
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import time
 from collections.abc import Callable
@@ -41,6 +42,20 @@ from .tolerance import TOLERANCE_KEYS, PartSpread, default_spreads
 #: samples per work item: large enough that a batch keeps every core busy, small enough
 #: that a chunk's waveforms (2048 samples x 21 probes x 8 B per case) stay near 100 MB
 DEFAULT_CHUNK = 128
+#: a spread's accuracy setting: steps (= samples) per mains cycle of each unit's solve
+#: (``spread --steps``). Chosen by measurement against the independent reference
+#: (benchmarks/bench_accuracy.py, DEVELOPERS.md "Accuracy per cost"): 256 steps keep the
+#: worst error of every reference case within 36 % of its tolerance (0.36 % of I rms, the
+#: largest; P within 0.011 %), below a 10,000-unit spread's own sampling error of its
+#: percentiles, at an eighth of the cost of ``unit``'s 2048
+SPREAD_SAMPLES_PER_CYCLE = 256
+#: and its periodicity tolerance (|x(T) - x(0)| / V_peak of the settled cycle): the error
+#: it leaves (a stored-energy change of ~1e-5 of P over a cycle) is two orders below the
+#: discretisation error at 256 steps; ``unit`` keeps the engine's 1e-9
+SPREAD_PERIODIC_RTOL = 1e-6
+#: the fewest and most steps per cycle ``--steps`` accepts (the harmonics up to H_MAX = 50
+#: need more than 100 samples per cycle)
+STEPS_RANGE = (128, 16384)
 #: fraction of units that must still deliver the heaviest state: the P5 unit
 P5_FRACTION = 0.95
 #: EPS load points as fractions of the rated output (as in the unit analysis)
@@ -112,6 +127,25 @@ class SpreadPlan:
     limits_file: str | None = None
     #: evaluate every unit against the limit sets (the slowest per-unit step, ~0.1 s)
     check_limits: bool = True
+    #: periodicity tolerance of each unit's solve (None: the engine's default)
+    periodic_rtol: float | None = None
+    #: per case of a sample, the least-squares fit of the settled unknowns at t = 0 on
+    #: the sample's relative deviations from the nominals (shape (1 + len(spreads), 4):
+    #: intercept, then one row per toleranced value), fitted on pilot samples; None: the
+    #: samples start from the nominal solution ``warm``
+    warm_fit: tuple[np.ndarray, ...] | None = None
+
+    def starts(self, values: np.ndarray) -> list[tuple[float, ...]] | None:
+        """Starting unknowns of every case of the samples ``values`` (flat, sample by
+        sample), or None for the topologies' own guesses."""
+        if not self.warm:
+            return None
+        if self.warm_fit is None:
+            return [w for _ in range(len(values)) for w in self.warm]
+        u = _deviations(self.spreads, values)
+        x = [u @ fit for fit in self.warm_fit]  # per case: (samples, 4)
+        return [tuple(float(v) for v in x[c][s]) for s in range(len(values))
+                for c in range(len(x))]
 
     def values(self, start: int, stop: int) -> np.ndarray:
         """Toleranced values of samples ``start .. stop-1`` (one row each) [SI]."""
@@ -147,6 +181,46 @@ def _warm_start(design: Design, samples_per_cycle: int) -> tuple[tuple[float, ..
     return tuple(r.x_start for r in nominal)
 
 
+#: pilot samples the warm-start fit is made on (at least two per fitted coefficient)
+PILOT_SAMPLES = 16
+
+
+def _deviations(spreads, values: np.ndarray) -> np.ndarray:
+    """[1, relative deviation of each toleranced value from its nominal] per sample."""
+    nominal = np.array([s.nominal for s in spreads], dtype=float)
+    rel = np.asarray(values, dtype=float) / np.where(nominal != 0.0, nominal, 1.0) - 1.0
+    return np.column_stack([np.ones(len(rel)), rel])
+
+
+def _warm_fit(design: Design, spreads, values: np.ndarray, warm, samples_per_cycle: int,
+              periodic_rtol) -> tuple[np.ndarray, ...] | None:
+    """Per case, the least-squares linear fit of the pilot samples' settled unknowns on
+    their deviations (a first-order model of the solution around the nominal).
+
+    Started from it, a sample's first cycle is within second-order terms of its fixed
+    point: nearly every sample then settles in two cycles (one Newton step, one
+    confirming cycle) where the nominal's own start took three on average and up to 25
+    near a zener's knee (DEVELOPERS.md "Accuracy per cost"). It changes where the
+    solve starts, not where it ends (the same fixed point to the periodicity tolerance).
+    """
+    if not warm or len(values) < max(PILOT_SAMPLES, 2 * (len(spreads) + 1)):
+        return None
+    designs = [sample_design(design, spreads, r) for r in values]
+    try:
+        solved = _solve_units(designs, warm, samples_per_cycle, periodic_rtol)
+    except SolverError:  # pragma: no cover  (_solve_units marks failures, never raises)
+        return None
+    if any(r is None for r in solved):
+        return None
+    a = _deviations(spreads, values)
+    fits = []
+    for c in range(len(warm)):
+        x = np.array([res[c].x_start for res in solved], dtype=float)
+        fit, *_ = np.linalg.lstsq(a, x, rcond=None)
+        fits.append(fit)
+    return tuple(fits)
+
+
 def plan_spread(
     design: Design,
     *,
@@ -155,13 +229,17 @@ def plan_spread(
     corners: bool = False,
     mains_band: list[PartSpread] | None = None,
     class_defaults: bool | None = None,
-    samples_per_cycle: int = sim.DEFAULT_SAMPLES_PER_CYCLE,
+    samples_per_cycle: int = SPREAD_SAMPLES_PER_CYCLE,
     limits_file: str | None = None,
     check_limits: bool = True,
+    periodic_rtol: float | None = SPREAD_PERIODIC_RTOL,
 ) -> SpreadPlan:
     """Decide the toleranced values and the samples (or corners) of a run.
 
     Solves the nominal design once (its solution warm-starts every sample).
+    ``samples_per_cycle`` and ``periodic_rtol`` are the run's accuracy setting (defaults
+    :data:`SPREAD_SAMPLES_PER_CYCLE`, :data:`SPREAD_PERIODIC_RTOL`; ``unit``'s are
+    2048 steps and the engine's 1e-9).
 
     Raises
     ------
@@ -176,6 +254,11 @@ def plan_spread(
         raise InputError(design.source, "--samples", "needs at least one sample")
     if seed < 0:
         raise InputError(design.source, "--seed", "must be a non-negative integer")
+    lo, hi = STEPS_RANGE
+    if not (lo <= samples_per_cycle <= hi and samples_per_cycle % 2 == 0):
+        raise InputError(design.source, "--steps",
+                         f"{samples_per_cycle} steps per cycle: an even number from {lo} to "
+                         f"{hi} (default {SPREAD_SAMPLES_PER_CYCLE})")
     spreads = tuple(study_spreads(design, mains_band, class_defaults))
     table, labels = None, ()
     if corners:
@@ -184,9 +267,12 @@ def plan_spread(
         n = len(table)
     else:
         n = int(samples)
-    return SpreadPlan(design, spreads, "corners" if corners else "monte-carlo", int(seed), n,
+    plan = SpreadPlan(design, spreads, "corners" if corners else "monte-carlo", int(seed), n,
                       table, labels, samples_per_cycle, _warm_start(design, samples_per_cycle),
-                      limits_file, check_limits)
+                      limits_file, check_limits, periodic_rtol)
+    pilot = plan.values(0, min(n, max(PILOT_SAMPLES, 2 * (len(spreads) + 1))))
+    fit = _warm_fit(design, spreads, pilot, plan.warm, samples_per_cycle, periodic_rtol)
+    return dataclasses.replace(plan, warm_fit=fit) if fit is not None else plan
 
 
 def _slug(text: str) -> str:
@@ -249,21 +335,28 @@ class ChunkOutcome:
     values: np.ndarray
 
 
-def _solve_units(designs: list[Design], warm, samples_per_cycle):
+def _solve_units(designs: list[Design], warm, samples_per_cycle, periodic_rtol=None,
+                 starts=None):
     """Every case of every unit in one batch; per unit its results (None if unsolved).
 
-    Warm-started from the nominal solution when the plan has one; if any unit then finds
-    no steady state, the chunk is solved again from the topologies' own initial guesses
-    (one batch), and only if that fails too unit by unit, marking the failing ones.
+    Warm-started from ``starts`` (per case, flat: :meth:`SpreadPlan.starts`) or else the
+    nominal solution ``warm`` when the plan has one; if any unit then finds no steady
+    state, the chunk is solved again from the topologies' own initial guesses (one batch),
+    and only if that fails too unit by unit, marking the failing ones.
     """
     per = [_sample_cases(d) for d in designs]
     cases = [c for cs in per for c in cs]
     attempts = [None]
-    if warm:
+    if starts:
+        attempts.insert(0, list(starts))
+    elif warm:
         attempts.insert(0, [w for cs in per for w in warm[: len(cs)]])
     for initial in attempts:
         try:
-            flat = sim.run(cases, samples_per_cycle, cache=None, initial=initial)
+            # from the nominal's solution, straight at the run's resolution: a coarse
+            # first solve saves nothing at a spread's few steps (DEVELOPERS.md)
+            flat = sim.run(cases, samples_per_cycle, cache=None, initial=initial,
+                           coarse_start=0 if initial else None, periodic_rtol=periodic_rtol)
         except SolverError:
             continue
         out, k = [], 0
@@ -275,7 +368,7 @@ def _solve_units(designs: list[Design], warm, samples_per_cycle):
     out = []
     for cs in per:
         try:
-            out.append(sim.run(cs, samples_per_cycle, cache=None))
+            out.append(sim.run(cs, samples_per_cycle, cache=None, periodic_rtol=periodic_rtol))
         except SolverError:
             out.append(None)
     return out
@@ -289,7 +382,8 @@ def evaluate_chunk(plan: SpreadPlan, bounds: tuple[int, int]) -> ChunkOutcome:
     start, stop = bounds
     values = plan.values(start, stop)
     designs = [sample_design(plan.design, plan.spreads, row) for row in values]
-    solved = _solve_units(designs, plan.warm, plan.samples_per_cycle)
+    solved = _solve_units(designs, plan.warm, plan.samples_per_cycle, plan.periodic_rtol,
+                          plan.starts(values))
     rows_fig, rows_fail = [], []
     for d, res in zip(designs, solved, strict=True):
         if res is None:
@@ -431,7 +525,8 @@ def evaluate_ageing_chunk(plan: SpreadPlan, years: tuple[int, ...], rate: float,
     attempts = ([[plan.warm[k]] * len(cases)] if plan.warm else []) + [None]
     for initial in attempts:
         try:
-            res = sim.run(cases, plan.samples_per_cycle, cache=None, initial=initial)
+            res = sim.run(cases, plan.samples_per_cycle, cache=None, initial=initial,
+                          periodic_rtol=plan.periodic_rtol)
         except SolverError:
             continue
         ok = np.array([r.in_regulation for r in res])
@@ -440,7 +535,8 @@ def evaluate_ageing_chunk(plan: SpreadPlan, years: tuple[int, ...], rate: float,
     else:
         for j, c in enumerate(cases):
             try:
-                (r,) = sim.run([c], plan.samples_per_cycle, cache=None)
+                (r,) = sim.run([c], plan.samples_per_cycle, cache=None,
+                               periodic_rtol=plan.periodic_rtol)
                 ok[j], vmin[j] = r.in_regulation, r.v_dc_min_v
             except SolverError:
                 pass  # no steady state: counted as not delivering
