@@ -68,12 +68,52 @@ def _folder_option(path, option: str) -> None:
         raise InputError(path, option, "exists and is not a folder")
 
 
+#: set by :func:`run`: this process is the command line itself, not a library caller
+_OWN_PROCESS = False
+
+
+def _blas_probe_without_scipy_linalg() -> None:
+    """Let numba's BLAS probe find scipy's BLAS wrappers without importing scipy.linalg.
+
+    When numba first loads compiled code it initialises all of its array support, which
+    checks once that BLAS is there by ``import scipy.linalg.cython_blas``; that imports the
+    whole scipy.linalg package (~0.22 s CPU, a fifth of a warm ``unit``) although the
+    engine calls no BLAS. Loading that one extension module under its own name first
+    answers the probe (numba's C helpers find it in ``sys.modules`` as they would after a
+    full import). A later ``import scipy.linalg`` imports the package as usual; it reuses
+    this module. Only in the command line's own process (:func:`run`), never for a library
+    caller; on any surprise (scipy laid out otherwise) nothing is done.
+    """
+    if not _OWN_PROCESS or "scipy.linalg.cython_blas" in sys.modules \
+            or "scipy.linalg" in sys.modules:
+        return
+    import importlib.machinery
+    import importlib.util
+
+    name = "scipy.linalg.cython_blas"
+    try:
+        import scipy
+
+        spec = importlib.machinery.PathFinder.find_spec(
+            "cython_blas", [os.path.join(os.path.dirname(scipy.__file__), "linalg")])
+        if spec is None or not isinstance(spec.loader, importlib.machinery.ExtensionFileLoader):
+            return
+        spec = importlib.util.spec_from_file_location(
+            name, spec.origin, loader=importlib.machinery.ExtensionFileLoader(name, spec.origin))
+        module = importlib.util.module_from_spec(spec)
+        sys.modules[name] = module
+        spec.loader.exec_module(module)
+    except Exception:  # leave numba to import it the usual way
+        sys.modules.pop(name, None)
+
+
 def _engine_ready() -> None:
     """Compile the circuit engine now if this machine has no compiled copy yet, saying so.
 
     The first run after installing compiles the numba engine once (its cache then lives
     beside the package); without this note the spinner would claim to be solving.
     """
+    _blas_probe_without_scipy_linalg()
     from .engine import solver
 
     if solver.engine_is_compiled():
@@ -776,6 +816,8 @@ def run() -> None:  # pragma: no cover - the console script; exits the process
     lost; what is skipped is the module teardown and garbage collection of numba's and
     pandas' objects, which took longer than a quick command itself.
     """
+    global _OWN_PROCESS
+    _OWN_PROCESS = True
     code = main()
     try:
         sys.stdout.flush()

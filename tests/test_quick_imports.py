@@ -8,6 +8,7 @@ scipy.special ~0.25 s, dask ~0.1 s on the development machine).
 
 from __future__ import annotations
 
+import json
 import subprocess
 import sys
 from pathlib import Path
@@ -45,6 +46,30 @@ def test_unit_run_leaves_out_pandas_matplotlib_pint():
     )
     assert _imported_after(code, ("pandas", "matplotlib", "pint", "dask",
                                   "scipy.special")) == []
+
+
+def test_command_line_unit_leaves_out_scipy_linalg_with_the_same_figures(cli):
+    # the console script's own process answers numba's BLAS probe with scipy's BLAS
+    # wrapper module alone (fleetpower.cli._blas_probe_without_scipy_linalg); the figures
+    # must be those of a library caller's process, where scipy.linalg is imported whole
+    watch = ("scipy.linalg", "pandas")
+    code = (
+        "import atexit, sys\n"
+        f"atexit.register(lambda: print('IMPORTED', *[m for m in {watch!r} "
+        "if m in sys.modules]))\n"
+        "sys.argv = ['fleetpower', 'unit', 'examples/nightlight-dropper.toml', '--json']\n"
+        "import fleetpower.cli\n"
+        "fleetpower.cli.run()\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code], cwd=REPO, capture_output=True,
+                         text=True, check=True).stdout
+    report, _, imported = out.rpartition("IMPORTED")
+    assert imported.split() == []
+    rc, in_process, _ = cli("unit", REPO / "examples" / "nightlight-dropper.toml", "--json")
+    assert rc == 0
+    mine, theirs = json.loads(report), json.loads(in_process)
+    mine.pop("file"), theirs.pop("file")
+    assert mine == theirs
 
 
 def test_limit_listing_leaves_out_pandas_and_numba():
