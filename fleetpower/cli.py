@@ -107,6 +107,13 @@ def _blas_probe_without_scipy_linalg() -> None:
         sys.modules.pop(name, None)
 
 
+def _outputs_free(args, paths, option: str) -> None:
+    """Refuse, before the work, an output file that exists unless ``--force`` is given."""
+    from .io.files import check_writable
+
+    check_writable(paths, getattr(args, "force", False), option)
+
+
 def _engine_ready() -> None:
     """Compile the circuit engine now if this machine has no compiled copy yet, saying so.
 
@@ -193,11 +200,15 @@ def cmd_unit(args) -> int:
 
         raise InputError(args.design, "--state",
                          f"unknown state {args.state!r}{suggest(args.state, design.states)}")
+    if args.waveform_csv:  # fail fast: before the solve
+        _outputs_free(args, _waveform_paths(args.waveform_csv, states or list(design.states)),
+                      "--waveform-csv")
     _engine_ready()
     with _status(f"solving {design.name} to periodic steady state"):
         analysis = analyse_unit(design, states, limits_file=args.limits)
     report = unit_to_dict(analysis)
-    written = _write_waveforms(args.waveform_csv, analysis) if args.waveform_csv else []
+    written = (_write_waveforms(args.waveform_csv, analysis, args.force)
+               if args.waveform_csv else [])
     if args.json:
         print(json.dumps(report, indent=2))
     else:
@@ -206,25 +217,35 @@ def cmd_unit(args) -> int:
     return _verdict_exit(args, report)
 
 
-def _write_waveforms(target: str, analysis) -> list[Path]:
+def _waveform_paths(target: str, states: list[str]) -> list[Path]:
+    """``--waveform-csv FILE``'s files: ``FILE``, or ``FILE-<state>`` for several states."""
+    base = Path(target)
+    if len(states) == 1:
+        return [base]
+    return [base.with_name(f"{base.stem}-{s}{base.suffix}") for s in states]
+
+
+def _write_waveforms(target: str, analysis, force: bool = False) -> list[Path]:
     """Each analysed state's cycle, repeated over the IEC window, as a capture file
-    (``FILE``, or ``FILE-<state>`` for several states)."""
+    (``FILE``, or ``FILE-<state>`` for several states); none written when one exists
+    and ``force`` is false."""
     from .io.capture_file import write_capture
+    from .io.files import check_writable
     from .pq.capture import repeat_cycle
 
     def how(r):
         return "simulated" if r.circuit_known else "rebuilt from the measured spectrum"
 
-    base = Path(target)
+    targets = _waveform_paths(target, [r.state for r in analysis.states])
+    check_writable(targets, force, "--waveform-csv")
     paths = []
-    for r in analysis.states:
-        path = (base if len(analysis.states) == 1
-                else base.with_name(f"{base.stem}-{r.state}{base.suffix}"))
+    for r, path in zip(analysis.states, targets, strict=True):
         t, v, i = repeat_cycle(r.t_s, r.v_v, r.i_a)
         write_capture(path, t, v, i, [
             f"{analysis.design.name}, state '{r.state}': the steady-state cycle repeated "
             f"over the IEC 61000-4-7 window ({how(r)} by fleetpower)",
-            "voltage line-to-neutral at the plug; current into the supply positive"])
+            "voltage line-to-neutral at the plug; current into the supply positive"],
+            overwrite=force, option="--waveform-csv")
         paths.append(path)
     return paths
 
@@ -352,6 +373,8 @@ def cmd_fleet(args) -> int:
     from .io.fleet_file import load_fleet
     from .report import fleet_to_dict, render_fleet
 
+    if args.csv:  # fail fast: before the fleet is read and evaluated
+        _outputs_free(args, [args.csv], "--csv")
     spec = load_fleet(args.fleet)
     _engine_ready()
     notes = []
@@ -369,7 +392,8 @@ def cmd_fleet(args) -> int:
                                            for n in notes] + list(result.warnings))
     report = fleet_to_dict(result)
     if args.csv:
-        write_atomic(args.csv, result.groups.to_csv(index=False))
+        write_atomic(args.csv, result.groups.to_csv(index=False), overwrite=args.force,
+                     option="--csv")
     if args.json:
         print(json.dumps(report, indent=2))
     else:
@@ -379,13 +403,47 @@ def cmd_fleet(args) -> int:
     return _verdict_exit(args, report)
 
 
+def _write_files(args, files: dict, figures=()) -> None:
+    """Write ``files`` (path -> (text, option)) atomically, after checking that none of
+    them, nor the ``figures`` still to come, exists (unless ``--force``): either every
+    file of the run is written or none."""
+    from .io.files import check_writable, write_atomic
+
+    for path, (_, option) in files.items():
+        check_writable([path], args.force, option)
+    check_writable(figures, args.force, "--plots")
+    for path, (text, option) in files.items():
+        write_atomic(path, text, overwrite=args.force, option=option)
+
+
+def _compare_outputs(args) -> dict[str, list[Path]]:
+    """The files ``compare`` (or ``demo``) will write by option, as far as known before
+    the run: checked before the solves so that an existing file fails fast."""
+    from .report.plots import COMPARISON_FIGURES, figure_paths
+
+    paths: dict[str, list[Path]] = {}
+    if args.csv:
+        out = Path(args.csv)
+        paths["--csv"] = [out / "designs.csv"] + [
+            out / f"groups_{chr(ord('A') + k)}_{Path(d).stem}.csv"
+            for k, d in enumerate(args.design)]
+    if args.markdown:
+        paths["--markdown"] = [Path(args.markdown)]
+    if args.plots:
+        paths["--plots"] = figure_paths(args.plots, COMPARISON_FIGURES)
+    return paths
+
+
 def cmd_compare(args) -> int:
     from .compare import compare as run_compare
     from .compare import comparison_table
-    from .io.files import write_atomic
     from .report import compare_markdown, compare_to_dict, render_compare
+    from .report.plots import COMPARISON_FIGURES, figure_paths
 
     _folder_option(args.plots, "--plots")
+    _folder_option(args.csv, "--csv")
+    for option, paths in _compare_outputs(args).items():
+        _outputs_free(args, paths, option)
     if args.plots:
         from .report.plots import require_matplotlib
 
@@ -400,24 +458,25 @@ def cmd_compare(args) -> int:
                       progress=_progress_printer("candidate"), at=at,
                       at_samples=getattr(args, "at_samples", 100))
     report = compare_to_dict(cmp)
+    files: dict[Path, tuple[str, str]] = {}  # path -> (text, option)
     written = []
     if args.csv:
-        from pathlib import Path
-
         out = Path(args.csv)
-        write_atomic(out / "designs.csv", comparison_table(cmp).to_csv(index=False))
+        files[out / "designs.csv"] = (comparison_table(cmp).to_csv(index=False), "--csv")
         for x, c in zip(report["designs"], cmp.candidates, strict=True):
-            write_atomic(out / f"groups_{x['letter']}_{x['design']}.csv",
-                         c.fleet.groups.to_csv(index=False))
+            files[out / f"groups_{x['letter']}_{x['design']}.csv"] = (
+                c.fleet.groups.to_csv(index=False), "--csv")
         written.append(f"{out / 'designs.csv'} and {len(cmp.candidates)} per-group "
                        f"tables in {out}")
     if args.markdown:
-        write_atomic(args.markdown, compare_markdown(report))
+        files[Path(args.markdown)] = (compare_markdown(report), "--markdown")
         written.append(args.markdown)
+    _write_files(args, files, figures=figure_paths(args.plots, COMPARISON_FIGURES)
+                 if args.plots else [])
     if args.plots:
         from .report.plots import comparison_figures
 
-        figs = comparison_figures(cmp, args.plots) or []
+        figs = comparison_figures(cmp, args.plots, overwrite=args.force) or []
         written.append(f"{len(figs)} figure file(s) in {args.plots}")
     if args.json:
         print(json.dumps(report, indent=2))
@@ -438,12 +497,14 @@ def cmd_spread(args) -> int:
     from .spread.study import plan_spread, run_ageing, run_spread
     from .spread.tolerance import mains_band_spreads
 
-    design = load_design(args.design)
     _folder_option(args.plots, "--plots")
     if args.plots:
-        from .report.plots import require_matplotlib
+        from .report.plots import figure_paths, require_matplotlib
+        from .report.spread import SPREAD_FIGURES
 
+        _outputs_free(args, figure_paths(args.plots, SPREAD_FIGURES), "--plots")
         require_matplotlib()
+    design = load_design(args.design)
     band = None
     if args.mains_band:
         volt, _, freq = args.mains_band.partition(",")
@@ -486,7 +547,7 @@ def cmd_spread(args) -> int:
                   "done so far")
     report = spread_to_dict(result)
     if args.plots and result.done:
-        _wrote(spread_figures(result, args.plots))
+        _wrote(spread_figures(result, args.plots, overwrite=args.force))
     if args.json:
         print(json.dumps(report, indent=2))
     else:
@@ -495,37 +556,44 @@ def cmd_spread(args) -> int:
 
 
 def cmd_line(args) -> int:
-    from pathlib import Path
-
-    from .io.files import write_atomic
     from .product_line import run_line
-    from .report.line import line_figures, line_markdown, line_tables, line_to_dict, render_line
+    from .report import line as L
+    from .report.plots import figure_paths
 
     _folder_option(args.plots, "--plots")
+    _folder_option(args.csv, "--csv")
+    figures = figure_paths(args.plots, L.LINE_FIGURES) if args.plots else []
+    for option, paths in (("--csv", [Path(args.csv) / n for n in L.LINE_TABLES] if args.csv
+                           else []),
+                          ("--markdown", [args.markdown] if args.markdown else []),
+                          ("--plots", figures)):
+        _outputs_free(args, paths, option)  # fail fast: before the solves
     if args.plots:
         from .report.plots import require_matplotlib
 
         require_matplotlib()
     _engine_ready()
     result = run_line(args.line, progress=_progress_printer("design on mains"))
-    report = line_to_dict(result)
+    report = L.line_to_dict(result)
+    files: dict[Path, tuple[str, str]] = {}
     written = []
     if args.csv:
         out = Path(args.csv)
-        tables = line_tables(result)
+        tables = L.line_tables(result)
         for name, df in tables.items():
-            write_atomic(out / name, df.to_csv(index=False))
+            files[out / name] = (df.to_csv(index=False), "--csv")
         written.append(f"{len(tables)} tables in {out}")
     if args.markdown:
-        write_atomic(args.markdown, line_markdown(report))
+        files[Path(args.markdown)] = (L.line_markdown(report), "--markdown")
         written.append(args.markdown)
+    _write_files(args, files, figures)
     if args.plots:
-        figs = line_figures(report, args.plots)
+        figs = L.line_figures(report, args.plots, overwrite=args.force)
         written.append(f"{len(figs)} figure file(s) in {args.plots}")
     if args.json:
         print(json.dumps(report, indent=2))
     else:
-        render_line(report, _console(args))
+        L.render_line(report, _console(args))
     _wrote(written)
     if getattr(args, "strict", False):
         failing = [p for p in report["pairs"] if p["failed_checks"]]
@@ -605,6 +673,7 @@ _WIDTH_HELP = (f"width of the printed screen in columns, {WIDTH_MIN}..{WIDTH_MAX
                "(default: the terminal's)")
 _DEBUG_HELP = "on an error, print Python's traceback too (for reporting a fault)"
 _STRICT_HELP = "exit 1 when a check fails (limits, stresses, conductors), for scripts"
+_FORCE_HELP = "overwrite files that already exist"
 
 
 def _verb(sub, name: str, help_text: str) -> argparse.ArgumentParser:
@@ -625,6 +694,7 @@ def _add_outputs(p) -> None:
     p.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     p.add_argument("--strict", action="store_true",
                    help="exit 1 when no candidate is free of failed checks, for scripts")
+    p.add_argument("--force", action="store_true", help=_FORCE_HELP)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -652,11 +722,13 @@ def build_parser() -> argparse.ArgumentParser:
                    help="write each state's waveform (one cycle repeated over the IEC "
                         "61000-4-7 window) as a capture file a measured design can read; "
                         "several states go to FILE-<state>")
+    u.add_argument("--force", action="store_true", help=_FORCE_HELP)
     u.set_defaults(func=cmd_unit)
     fl = _verb(sub, "fleet", "what a whole deployment draws and costs")
     fl.add_argument("fleet", help="fleet file (TOML)")
     fl.add_argument("--json", action="store_true", help="print one JSON object instead")
     fl.add_argument("--csv", metavar="OUT", help="write the per-group table to this CSV file")
+    fl.add_argument("--force", action="store_true", help=_FORCE_HELP)
     fl.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     fl.add_argument("--strict", action="store_true", help=_STRICT_HELP)
     fl.add_argument("--at", metavar="P95",
@@ -709,6 +781,7 @@ def build_parser() -> argparse.ArgumentParser:
     sp.add_argument("--no-limits", action="store_true",
                     help="skip the limit sets per unit (stresses and regulation still checked)")
     sp.add_argument("--plots", metavar="DIR", help="write percentile plots (fleetpower[plot])")
+    sp.add_argument("--force", action="store_true", help=_FORCE_HELP)
     sp.add_argument("--json", action="store_true", help="print one JSON object instead")
     sp.add_argument("--strict", action="store_true",
                     help="exit 1 when any unit of the run fails a check, or (with --years) "
@@ -724,6 +797,7 @@ def build_parser() -> argparse.ArgumentParser:
     ln.add_argument("--plots", metavar="DIR",
                     help="write the headroom matrix and installed-base energy figures "
                          "(needs fleetpower[plot])")
+    ln.add_argument("--force", action="store_true", help=_FORCE_HELP)
     ln.add_argument("--width", type=_width, metavar="N", help=_WIDTH_HELP)
     ln.add_argument("--strict", action="store_true",
                     help="exit 1 when any model x market pair fails a check, for scripts")

@@ -537,23 +537,35 @@ def fleet_case(draw):
 
 
 @FUZZ
-@given(case=fleet_case(), as_json=st.booleans(), width=widths, csv=st.booleans())
-def test_fleet_any_fleet_file(case, as_json, width, csv):
+@given(case=fleet_case(), as_json=st.booleans(), width=widths, csv=st.booleans(),
+       existing=st.booleans(), force=st.booleans())
+def test_fleet_any_fleet_file(case, as_json, width, csv, existing, force):
+    """... and the output file (README "Files written"): an existing one is refused
+    without --force and left as it was; whatever the outcome, no temporary file stays."""
     blob, extra = case
     with scratch() as d:
         f = d / "fleet.toml"
         f.write_bytes(blob)
         for name, b in extra.items():
             (d / name).write_bytes(b)
+        out = d / "out" / "groups.csv"
+        if existing:
+            out.parent.mkdir()
+            out.write_text("old\n", encoding="utf-8")
         argv = ["fleet", f] + (["--json"] if as_json else []) + _width_args(width)
         if csv:
-            argv += ["--csv", d / "out" / "groups.csv"]
+            argv += ["--csv", out] + (["--force"] if force else [])
         o = run_case(argv)
         check(o, names=[f, *(d / n for n in extra), d / "sensor-dropper-230.toml",
-                        d / "heater-resistive.toml", d / "lobby-bridge-dropper.toml",
-                        d / "out" / "groups.csv"])
+                        d / "heater-resistive.toml", d / "lobby-bridge-dropper.toml", out])
+        if csv and existing and not force:
+            assert o.rc == 2 and f"{out}: --csv: " in o.err and "--force" in o.err, o
         if o.rc == 0 and csv:
-            assert (d / "out" / "groups.csv").is_file()
+            assert out.is_file() and out.read_text(encoding="utf-8") != "old\n"
+        elif existing:
+            assert out.read_text(encoding="utf-8") == "old\n"  # untouched on any failure
+        if out.parent.is_dir():
+            assert not [p for p in out.parent.iterdir() if "fleetpower-tmp" in p.name]
 
 
 rates = st.one_of(st.none(), st.floats(-0.99, 0.99), st.sampled_from([0.0, 0.05, -0.5]),

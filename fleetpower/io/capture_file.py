@@ -306,6 +306,9 @@ def capture_csv(t_s: np.ndarray, v_v: np.ndarray, i_a: np.ndarray,
 
 
 def write_capture(path: str | Path, t_s: np.ndarray, v_v: np.ndarray, i_a: np.ndarray,
-                  comments: list[str] = ()) -> None:
-    """Write a capture file atomically (:func:`fleetpower.io.files.write_atomic`)."""
-    write_atomic(path, capture_csv(t_s, v_v, i_a, comments))
+                  comments: list[str] = (), *, overwrite: bool = True,
+                  option: str = "") -> None:
+    """Write a capture file atomically (:func:`fleetpower.io.files.write_atomic`); an
+    existing file is refused unless ``overwrite``."""
+    write_atomic(path, capture_csv(t_s, v_v, i_a, comments), overwrite=overwrite,
+                 option=option)

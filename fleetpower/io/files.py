@@ -1,38 +1,155 @@
 """Writing files: every file fleetpower writes goes through :func:`write_atomic`.
 
-Owns: atomic text writes (a temporary file in the same folder, then a rename, so a file
-is never half-written). May import ``errors`` only.
+Owns: atomic writes (a temporary file in the same folder, flushed to disk, then renamed
+over the target, so a reader sees the old complete file or the new complete file, never a
+part), the refusal to overwrite a file without ``--force`` (:func:`check_writable`), and
+the bounded reading of a user's file (:func:`read_text_bounded`). May import ``errors``
+only.
 """
 
 from __future__ import annotations
 
 import os
 import tempfile
+from collections.abc import Callable, Iterable
 from pathlib import Path
+from typing import BinaryIO
 
 from ..errors import InputError
 
+#: Infix of a temporary file's name: ``.<name>.fleetpower-tmp-<random>`` beside the target.
+#: A run that is killed (SIGKILL, power loss) mid-write can leave one behind; its name says
+#: what it is, and it can be deleted. A Ctrl-C or any error removes it.
+TMP_INFIX = ".fleetpower-tmp-"
 
-def write_atomic(path: str | Path, text: str) -> None:
-    """Write ``text`` to ``path`` via a temporary file and a rename (never half-written)."""
-    path = Path(path)
+#: The one-line refusal to overwrite (README "Files written")
+EXISTS = "exists; use --force to overwrite it"
+
+
+def temp_prefix(path: str | Path) -> str:
+    """Name prefix of the temporary files written for ``path`` (``.<name>.fleetpower-tmp-``)."""
+    return f".{Path(path).name}{TMP_INFIX}"
+
+
+def check_writable(paths: Iterable[str | Path], force: bool, option: str = "") -> None:
+    """Refuse, naming the first one, a target that exists when ``force`` is false.
+
+    Called before the expensive work (fail fast) and again before writing a set of files,
+    so that either none or all of a verb's files are written; :func:`write_atomic` checks
+    once more as it commits. A target that is a folder is refused even with ``force``.
+
+    Raises
+    ------
+    InputError
+        ``<path>: <option>: exists; use --force to overwrite it`` (exit 2).
+    """
+    for p in paths:
+        file = check_path(p, option)
+        if os.path.isdir(file):
+            raise InputError(file, option, "is a folder, not a file")
+        if not force and os.path.lexists(file):
+            raise InputError(file, option, EXISTS)
+
+
+def _write_all(fh: BinaryIO, data: str | bytes | Callable[[BinaryIO], None]) -> None:
+    """Write ``data`` (text as UTF-8, bytes as they are, or a writer called with ``fh``)."""
+    if callable(data):
+        data(fh)
+    else:
+        fh.write(data.encode("utf-8") if isinstance(data, str) else data)
+
+
+def _sync_folder(folder: Path) -> None:
+    """Flush the folder's entry of the renamed file to disk (best effort: not every
+    platform or file system lets a folder be opened or synced)."""
+    try:
+        fd = os.open(folder, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
+
+
+def _commit(tmp: str, path: Path, overwrite: bool, option: str) -> None:
+    """Put the finished temporary file ``tmp`` in place of ``path``.
+
+    With ``overwrite`` a rename (``os.replace``, atomic on POSIX and Windows). Without it a
+    hard link, which fails when the target exists (no window in which another writer's
+    file could be replaced); where the file system has no hard links, a check and a rename.
+    """
+    if overwrite:
+        os.replace(tmp, path)
+        return
+    try:
+        os.link(tmp, path)
+    except FileExistsError:
+        raise InputError(str(path), option, EXISTS) from None
+    except OSError:  # no hard links here (some network or FAT file systems)
+        if os.path.lexists(path):
+            raise InputError(str(path), option, EXISTS) from None
+        os.replace(tmp, path)
+        return
+    os.unlink(tmp)
+
+
+def write_atomic(path: str | Path, data: str | bytes | Callable[[BinaryIO], None], *,
+                 overwrite: bool = True, option: str = "") -> None:
+    """Write ``data`` to ``path`` atomically: never a half-written file.
+
+    The data go to a temporary file ``.<name>.fleetpower-tmp-<random>`` in the target's
+    folder, are flushed to disk (``fsync``), and the file is renamed over the target.
+    On any exception, a ``KeyboardInterrupt`` included, the temporary file is removed and
+    the target is untouched (absent, or the old complete file).
+
+    Parameters
+    ----------
+    path : str or Path
+        Target file; missing parent folders are made.
+    data : str, bytes or callable
+        Text (written as UTF-8, line ends as given), bytes, or a function writing to the
+        binary file object it is handed (e.g. ``lambda fh: fig.savefig(fh, format="png")``).
+    overwrite : bool
+        Replace an existing target (the CLI's ``--force``); when false an existing target
+        is refused with :class:`InputError` and left as it was.
+    option : str
+        The command-line option naming the target, for the error's place.
+
+    Raises
+    ------
+    InputError
+        The target exists (without ``overwrite``), or the folder cannot be made or
+        written (naming the path).
+    """
+    path = Path(check_path(path, option))
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
     except OSError as exc:
-        raise InputError(str(path), "", f"cannot write: {exc.strerror or exc}") from None
+        raise InputError(str(path), option, f"cannot write: {exc.strerror or exc}") from None
+    if not overwrite and os.path.lexists(path):  # fail before writing anything
+        raise InputError(str(path), option, EXISTS)
+    tmp = None
     try:
+        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=temp_prefix(path))
         umask = os.umask(0)
         os.umask(umask)
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+        with os.fdopen(fd, "wb") as fh:
             os.fchmod(fh.fileno(), 0o666 & ~umask)  # mkstemp makes 0600; match open()
-            fh.write(text)
-        os.replace(tmp, path)
+            _write_all(fh, data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        _commit(tmp, path, overwrite, option)
+        tmp = None
+        _sync_folder(path.parent)
     except BaseException as exc:
-        if os.path.exists(tmp):
+        if tmp is not None and os.path.lexists(tmp):
             os.unlink(tmp)
         if isinstance(exc, OSError):
-            raise InputError(str(path), "", f"cannot write: {exc.strerror or exc}") from None
+            raise InputError(str(path), option,
+                             f"cannot write: {exc.strerror or exc}") from None
         raise
 
 

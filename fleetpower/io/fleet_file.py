@@ -11,7 +11,9 @@ nothing that simulates or evaluates.
 
 from __future__ import annotations
 
+import io
 import math
+import os
 from dataclasses import dataclass, field
 from itertools import chain, compress, repeat
 from pathlib import Path
@@ -25,6 +27,7 @@ from ..errors import InputError, suggest
 from ..pq.polyphase import system_phases
 from ..units import parse_quantity
 from .design_file import Design, Mains, load_design
+from .files import check_path, read_text_bounded
 from .toml import read_toml
 
 SYSTEMS = {"single-phase": "single", "split-phase": "split", "three-phase-wye": "wye"}
@@ -318,12 +321,23 @@ def _parse_hours_cell(text: str):
 
 
 def _inventory(file: str, ref: str, base: Path, site: Site, cache: dict, start: int):
-    path = (base / ref).resolve()
-    inv = str(path)
-    if not path.is_file():
-        raise InputError(file, "inventory", f"inventory file not found: {ref}")
+    if not isinstance(ref, str) or not ref:
+        raise InputError(file, "inventory", "expected the path of an inventory file (CSV)")
     try:
-        df = pd.read_csv(path, dtype=str, keep_default_na=False)
+        check_path(ref)
+    except InputError as exc:  # a NUL byte or too long: named as the fleet file's key
+        raise InputError(file, "inventory", exc.message) from None
+    try:
+        path = (base / ref).resolve()
+    except (OSError, RuntimeError):  # a loop of symbolic links
+        path = Path(os.path.abspath(base / ref))
+    inv = str(path)
+    if not os.path.lexists(path):
+        raise InputError(file, "inventory", f"inventory file not found: {ref}")
+    # bounded like the design files: a regular file, at most MAX_READ_BYTES, UTF-8
+    text = read_text_bounded(path).removeprefix("\ufeff")  # a spreadsheet's byte-order mark
+    try:
+        df = pd.read_csv(io.StringIO(text), dtype=str, keep_default_na=False)
     except Exception as exc:  # pandas raises several parser errors
         raise InputError(inv, "", f"cannot read as CSV: {exc}") from None
     required = {"design", "count", "phase"}

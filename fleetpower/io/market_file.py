@@ -4,7 +4,7 @@ The shipped table is ``data/markets.csv`` (format in ``data/markets.md``); a use
 the same format adds markets or overrides shipped ones by their ``market`` id. Any problem
 is an :class:`~fleetpower.errors.InputError` naming the file, the row and the column.
 
-Owns: the market-table format and :class:`Market`. May import ``errors`` and
+Owns: the market-table format and :class:`Market`. May import ``errors``, ``io.files`` and
 ``_resources`` only; the limit-set ids a market names are checked by the caller against
 the shipped limit tables (``io`` imports nothing that evaluates).
 """
@@ -12,7 +12,9 @@ the shipped limit tables (``io`` imports nothing that evaluates).
 from __future__ import annotations
 
 import functools
+import io
 import math
+import os
 from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path
@@ -21,6 +23,7 @@ import pandas as pd
 
 from .._resources import data_dir
 from ..errors import FleetpowerError, InputError, suggest
+from .files import check_path, read_text_bounded
 
 #: the shipped market table, in ``data/``
 MARKETS_FILE = "markets.csv"
@@ -91,12 +94,15 @@ def read_market_table(path: str | Path, known_sets: Iterable[str] | None = None)
     InputError
         ``file: row N, column C: message`` (rows counted as a spreadsheet does, header = 1).
     """
-    path = Path(path)
-    file = str(path)
-    if not path.is_file():
+    file = check_path(path)
+    path = Path(file)
+    if not os.path.lexists(file):
         raise InputError(file, "", "market file not found")
+    # bounded like the design files: a regular file, at most MAX_READ_BYTES, UTF-8
+    text = read_text_bounded(path).removeprefix("\ufeff")  # a spreadsheet's byte-order mark
     try:
-        df = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+        df = pd.read_csv(io.StringIO(text), dtype=str, keep_default_na=False,
+                         skipinitialspace=True)
     except Exception as exc:  # pandas raises several parser errors
         raise InputError(file, "", f"cannot read as CSV: {exc}") from None
     for col in df.columns:

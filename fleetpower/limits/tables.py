@@ -22,7 +22,8 @@ pandas; the functions that return DataFrames (:func:`load_limit_set`,
 :func:`list_limit_sets`, :func:`load_scopes`) build them from those records when asked.
 
 Owns: the limit-file format, the shipped-table cache, :class:`ComplianceRow`, :func:`margin`.
-May import ``errors`` and ``_resources`` only; nothing that simulates or evaluates a unit.
+May import ``errors``, ``io.files`` (the bounded reader) and ``_resources`` only; nothing
+that simulates or evaluates a unit.
 """
 
 from __future__ import annotations
@@ -31,6 +32,7 @@ import csv
 import functools
 import io
 import math
+import os
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -506,6 +508,15 @@ def _unknown_set(text: str) -> InputError:
                       f"{suggest(text, ids)}; 'fleetpower limits' lists the sets")
 
 
+def _is_user_file(text: str) -> bool:
+    """Whether a set name is a user's file rather than a shipped set id: it ends in
+    ``.csv``, holds a folder separator, or names something that exists and is not a
+    folder (a FIFO or a device is then refused by the bounded reader, naming it)."""
+    if text.lower().endswith(".csv") or "/" in text or os.sep in text:
+        return True
+    return os.path.lexists(text) and not os.path.isdir(text)
+
+
 def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
     """Load a limit set by shipped id or from a CSV file.
 
@@ -539,13 +550,13 @@ def load_limit_set(path_or_name: str | Path) -> pd.DataFrame:
 def _is_file_name(text: str) -> tuple[Path, bool]:
     """(path, whether ``text`` names a limit file rather than a shipped set id)."""
     path = Path(check_path(text))
-    try:
-        is_file = path.is_file()
-    except OSError as exc:  # e.g. a path component longer than the file system allows
-        raise InputError(text[:60], "", f"cannot read: {exc.strerror or exc}") from None
-    if path.suffix.lower() == ".csv" or is_file:
-        if not is_file:
-            raise InputError(text, "", "limit file not found")
+    if _is_user_file(text):
+        try:
+            os.lstat(text)
+        except FileNotFoundError:
+            raise InputError(text, "", "limit file not found") from None
+        except OSError as exc:  # e.g. a path component longer than the file system allows
+            raise InputError(text[:60], "", f"cannot read: {exc.strerror or exc}") from None
         return path, True
     return path, False
 

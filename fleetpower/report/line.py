@@ -92,9 +92,13 @@ def line_to_dict(r: LineResult) -> dict:
     })
 
 
+#: the file names of ``--csv DIR`` (:func:`line_tables`)
+LINE_TABLES = ("pairs.csv", "checks.csv", "installed_base.csv")
+
+
 def line_tables(r: LineResult) -> dict[str, pd.DataFrame]:
-    """The CSV tables of ``--csv DIR``: file name -> table."""
-    return {"pairs.csv": r.pairs, "checks.csv": r.checks, "installed_base.csv": r.installed}
+    """The CSV tables of ``--csv DIR``: file name (:data:`LINE_TABLES`) -> table."""
+    return dict(zip(LINE_TABLES, (r.pairs, r.checks, r.installed), strict=True))
 
 
 # ----------------------------------------------------------------------------------
@@ -259,10 +263,14 @@ def line_markdown(d: dict) -> str:
 # ----------------------------------------------------------------------------------
 # figures
 # ----------------------------------------------------------------------------------
-def line_figures(d: dict, folder) -> list[Path]:
+#: the figures of a product line (:func:`line_figures`), by file stem
+LINE_FIGURES = ("headroom_matrix", "installed_energy")
+
+
+def line_figures(d: dict, folder, overwrite: bool = True) -> list[Path]:
     """Write two figures (PNG and SVG each): ``headroom_matrix`` (model x market, 100 %
     minus the most-used check) and ``installed_energy`` (installed-base energy by model,
-    stacked over the years)."""
+    stacked over the years); an existing file is refused unless ``overwrite``."""
     import numpy as np
 
     from .plots import _save, require_matplotlib
@@ -292,7 +300,7 @@ def line_figures(d: dict, folder) -> list[Path]:
     ax.set_title("Headroom of the most-used check, model x market")
     ax.set_xlabel("market (blank: not sold there, or no counted check)")
     fig.tight_layout()
-    written = _save(fig, out, "headroom_matrix")
+    written = _save(fig, out, "headroom_matrix", overwrite)
     plt.close(fig)
     years = sorted({x["year"] for x in d["installed_base"]})
     fig, ax = plt.subplots(figsize=(7, 3.5))
@@ -309,7 +317,7 @@ def line_figures(d: dict, folder) -> list[Path]:
     ax.set_ylabel("installed-base energy [MWh/year]")
     ax.legend(title="model", fontsize=8)
     fig.tight_layout()
-    written += _save(fig, out, "installed_energy")
+    written += _save(fig, out, "installed_energy", overwrite)
     plt.close(fig)
     return written
 

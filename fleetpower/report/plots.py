@@ -28,13 +28,28 @@ def require_matplotlib():
     return plt
 
 
-def _save(fig, out: Path, stem: str) -> list[Path]:
+#: formats each figure is written in (one file per format, the format from the suffix)
+FIGURE_FORMATS = ("png", "svg")
+#: the figures of a comparison (:func:`comparison_figures`), by file stem
+COMPARISON_FIGURES = ("waveforms", "spectrum", "lifetime_cost")
+
+
+def figure_paths(folder, stems) -> list[Path]:
+    """The files the figures ``stems`` are written to in ``folder`` (every format)."""
+    return [Path(folder) / f"{stem}.{ext}" for stem in stems for ext in FIGURE_FORMATS]
+
+
+def _save(fig, out: Path, stem: str, overwrite: bool = True) -> list[Path]:
+    """Write ``fig`` as ``out/stem.<format>`` for every format, each atomically
+    (:func:`fleetpower.io.files.write_atomic`: a temporary file in ``out``, then a rename);
+    an existing file is refused unless ``overwrite``."""
+    from ..io.files import write_atomic
+
     paths = []
-    for ext in ("png", "svg"):
-        p = out / f"{stem}.{ext}"
-        tmp = out / f".{stem}.tmp.{ext}"
-        fig.savefig(tmp, dpi=110, format=ext)
-        tmp.replace(p)
+    for p in figure_paths(out, [stem]):
+        ext = p.suffix[1:]
+        write_atomic(p, lambda fh, ext=ext: fig.savefig(fh, dpi=110, format=ext),
+                     overwrite=overwrite, option="--plots")
         paths.append(p)
     return paths
 
@@ -186,7 +201,7 @@ def spectrum_figure(plt, items):
     return fig
 
 
-def comparison_figures(cmp, folder) -> list[Path]:
+def comparison_figures(cmp, folder, overwrite: bool = True) -> list[Path]:
     """Write three figures (PNG and SVG each) for a comparison.
 
     - ``waveforms``: mains voltage and input current over one cycle, one axes per design
@@ -195,7 +210,8 @@ def comparison_figures(cmp, folder) -> list[Path]:
       they apply to that design, :func:`spectrum_figure`;
     - ``lifetime_cost``: cumulative discounted cost over the service life, all designs.
 
-    Returns the paths written.
+    An existing file is refused unless ``overwrite`` (the CLI's ``--force``). Returns the
+    paths written.
     """
     plt = require_matplotlib()
     out = Path(folder)
@@ -204,7 +220,7 @@ def comparison_figures(cmp, folder) -> list[Path]:
     written: list[Path] = []
     for stem, make in (("waveforms", waveform_figure), ("spectrum", spectrum_figure)):
         fig = make(plt, items)
-        written += _save(fig, out, stem)
+        written += _save(fig, out, stem, overwrite)
         plt.close(fig)
 
     fig, ax = plt.subplots(figsize=(7, 3.5))
@@ -217,6 +233,6 @@ def comparison_figures(cmp, folder) -> list[Path]:
     ax.legend(fontsize=7)
     ax.grid(alpha=0.3)
     fig.tight_layout()
-    written += _save(fig, out, "lifetime_cost")
+    written += _save(fig, out, "lifetime_cost", overwrite)
     plt.close(fig)
     return written

@@ -207,9 +207,14 @@ def render_spread(report: dict, console) -> None:
     console.print(f"[dim]solve time {report['solve_s']:.1f} s[/dim]")
 
 
-def spread_figures(result: SpreadResult, folder) -> list[Path]:
+#: the figures of a spread run (:func:`spread_figures`), by file stem
+SPREAD_FIGURES = ("spread_p_w", "spread_v_dc_min_v")
+
+
+def spread_figures(result: SpreadResult, folder, overwrite: bool = True) -> list[Path]:
     """Write a percentile plot (empirical CDF) per state of P and of the reservoir minimum,
-    PNG and SVG each."""
+    PNG and SVG each (:data:`SPREAD_FIGURES`); an existing file is refused unless
+    ``overwrite``."""
     from .plots import _floor_axis, _save, require_matplotlib
 
     plt = require_matplotlib()
@@ -240,6 +245,6 @@ def spread_figures(result: SpreadResult, folder) -> list[Path]:
         ax.set_title(f"{result.plan.design.name}: {result.done} units")
         ax.legend(title="state", fontsize=8)
         fig.tight_layout()
-        paths += _save(fig, out, f"spread_{quantity}")
+        paths += _save(fig, out, f"spread_{quantity}", overwrite)
         plt.close(fig)
     return paths
