@@ -394,7 +394,11 @@ def test_csv_replaces_an_existing_file_or_leaves_it_whole(cli, folder, monkeypat
     path = write_fleet(folder, base_fleet())
     out = folder / "groups.csv"
     out.write_text("old,table\n1,2\n", "utf-8")
-    rc, _, err = cli("fleet", path, "--csv", out)
+    rc, _, err = cli("fleet", path, "--csv", out)  # not without --force (README)
+    assert rc == EXIT_INPUT and err == f"fleetpower: {out}: --csv: exists; use --force to " \
+        "overwrite it\n"
+    assert out.read_text("utf-8") == "old,table\n1,2\n"
+    rc, _, err = cli("fleet", path, "--csv", out, "--force")
     assert rc == 0, err
     assert list(pd.read_csv(out).columns) == GROUP_COLUMNS
 
@@ -405,9 +409,9 @@ def test_csv_replaces_an_existing_file_or_leaves_it_whole(cli, folder, monkeypat
         raise PermissionError(13, "Permission denied")
 
     monkeypatch.setattr("fleetpower.io.files.os.replace", refuse)
-    rc, _, err = cli("fleet", path, "--csv", out)
+    rc, _, err = cli("fleet", path, "--csv", out, "--force")
     assert rc == EXIT_INPUT
-    assert err.count("\n") == 1 and err.startswith(f"fleetpower: {out}: cannot write")
+    assert err.count("\n") == 1 and err.startswith(f"fleetpower: {out}: --csv: cannot write")
     assert out.read_text("utf-8") == "old,table\n1,2\n"
     assert sorted(p.name for p in folder.iterdir() if "groups" in p.name) == ["groups.csv"]
 
@@ -417,9 +421,9 @@ def test_csv_into_an_impossible_folder_fails_cleanly(cli, folder):
     blocker = folder / "not-a-folder"
     blocker.write_text("a file, not a folder\n", "utf-8")
     out = blocker / "groups.csv"
-    rc, _, err = cli("fleet", path, "--csv", out)
+    rc, _, err = cli("fleet", path, "--csv", out, "--force")
     assert rc == EXIT_INPUT
-    assert err.count("\n") == 1 and err.startswith(f"fleetpower: {out}: cannot write")
+    assert err.count("\n") == 1 and err.startswith(f"fleetpower: {out}: --csv: cannot write")
 
 
 def test_json_carries_the_fleet_figures(cli, folder):
