@@ -613,6 +613,8 @@ def cmd_demo(args) -> int:
     args.design = [str(ex / d) for d in DEMO_DESIGNS]
     for name in ("years", "rate", "escalation"):
         setattr(args, name, None)
+    for option, paths in _compare_outputs(args).items():  # before the banner
+        _outputs_free(args, paths, option)
     console = _console(args)
     if not args.json:
         console.print(f"[bold]Demo:[/bold] the bundled scenario {DEMO_FLEET} with "

@@ -229,8 +229,8 @@ def test_demo_markdown_existing_is_refused(tmp_path, monkeypatch):
     taken = tmp_path / "demo.md"
     taken.write_text("mine\n", encoding="utf-8")
     monkeypatch.setattr(fleetpower.compare, "compare", _must_not_run)
-    code, _, err = _run("demo", "--markdown", taken, "--json")
-    assert code == 2
+    code, out, err = _run("demo", "--markdown", taken)
+    assert code == 2 and out == ""  # refused before the demo's banner
     _refused(err, taken)
 
 
