@@ -139,3 +139,13 @@ def test_limit_file_with_a_byte_order_mark_reads_as_without(cli, tmp_path):
     rc2, out2, _ = cli("limits", marked, "--json")
     assert rc1 == rc2 == 0
     assert out1.replace("plain.csv", "F") == out2.replace("marked.csv", "F")
+
+
+def test_fleet_design_name_longer_than_the_file_system_allows(cli, site):
+    # NAME_MAX is 255 bytes on Linux file systems (common practice, no source): the stat
+    # fails with ENAMETOOLONG, which must be one line naming the key, not exit 4
+    f = site / "long.toml"
+    f.write_text((site / "harbour-office.toml").read_text(encoding="utf-8").replace(
+        "lobby-bridge-dropper.toml", "x" * 600), encoding="utf-8")
+    line = _one_line(cli, "fleet", f)
+    assert str(f) in line and ".design" in line, line

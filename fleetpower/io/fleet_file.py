@@ -273,8 +273,16 @@ def _design(file, where, ref, base: Path, site: Site, cache: dict) -> tuple[Path
     known = refs.get((base, ref))
     if known is not None:
         return known, cache[known]
-    path = (base / ref).resolve()
-    if not path.is_file():
+    try:
+        check_path(ref)
+        path = (base / ref).resolve()
+        found = path.is_file()
+    except InputError as exc:  # a NUL byte or too long a path: named as this key
+        raise InputError(file, f"{where}design", exc.message) from None
+    except (OSError, RuntimeError) as exc:  # a name longer than the file system allows
+        raise InputError(file, f"{where}design", f"cannot read the design file "
+                         f"{ref[:60]!r}: {getattr(exc, 'strerror', None) or exc}") from None
+    if not found:
         raise InputError(file, f"{where}design", f"design file not found: {ref}")
     if path not in cache:
         d = load_design(path)
