@@ -60,8 +60,8 @@ def _make(kind: str, path: Path) -> tuple[str, ...]:
         path.write_bytes("design,count\nchauffe-eau é,3\n".encode("latin-1") + b"\xff\n")
     elif kind == "utf-16":
         path.write_bytes(INVENTORY.encode("utf-16"))
-    elif kind == "too-large":
-        path.write_bytes(b"design,count,phase\n" + b"x" * files.MAX_READ_BYTES)
+    elif kind == "too-large":  # past the inventory's bound, which is the larger
+        path.write_bytes(b"design,count,phase\n" + b"x" * files.MAX_INVENTORY_BYTES)
     return (str(path),)
 
 

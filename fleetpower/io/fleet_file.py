@@ -27,7 +27,7 @@ from ..errors import InputError, suggest
 from ..pq.polyphase import system_phases
 from ..units import parse_quantity
 from .design_file import Design, Mains, load_design
-from .files import check_path, read_text_bounded
+from .files import MAX_INVENTORY_BYTES, check_path, read_text_bounded
 from .toml import read_toml
 
 SYSTEMS = {"single-phase": "single", "split-phase": "split", "three-phase-wye": "wye"}
@@ -342,8 +342,8 @@ def _inventory(file: str, ref: str, base: Path, site: Site, cache: dict, start: 
     inv = str(path)
     if not os.path.lexists(path):
         raise InputError(file, "inventory", f"inventory file not found: {ref}")
-    # bounded like the design files: a regular file, at most MAX_READ_BYTES, UTF-8
-    text = read_text_bounded(path).removeprefix("\ufeff")  # a spreadsheet's byte-order mark
+    # bounded like the design files: a regular file, at most MAX_INVENTORY_BYTES, UTF-8
+    text = read_text_bounded(path, MAX_INVENTORY_BYTES).removeprefix("\ufeff")  # a BOM
     try:
         df = pd.read_csv(io.StringIO(text), dtype=str, keep_default_na=False)
     except Exception as exc:  # pandas raises several parser errors
