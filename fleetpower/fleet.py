@@ -18,6 +18,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from itertools import repeat
+from operator import attrgetter
 from pathlib import Path
 
 import numpy as np
@@ -58,7 +59,7 @@ def unit_catalogue(designs: dict[Path, Design], progress=None) -> dict[Path, dic
     return out
 
 
-def regulation_failures(spec: FleetSpec, catalogue: dict, _by_design=None) -> list[dict]:
+def regulation_failures(spec: FleetSpec, catalogue: dict, _columns=None) -> list[dict]:
     """A design that cannot power its load in a state some group uses: one failure each.
 
     The largest load the design holds in regulation is searched only for designs that
@@ -66,17 +67,18 @@ def regulation_failures(spec: FleetSpec, catalogue: dict, _by_design=None) -> li
     """
     from .unit import max_deliverable_current_a
 
-    by_design = _by_design if _by_design is not None else _groups_by_design(spec.groups)
+    cols = _columns if _columns is not None else _group_columns(spec.groups)
     out = []
     for path, d in spec.designs.items():
-        if path not in by_design:
+        if path not in cols["by_design"]:
             continue
-        used = _states_used(spec.groups, *by_design[path])
-        for s, names in used.items():
+        used = _states_used(cols, *cols["by_design"][path])
+        for s, members in used.items():
             res = catalogue[path][s]
             # held, or not known (a measured gadget, a hand-made catalogue)
             if getattr(res, "in_regulation", None) is not False:
                 continue
+            names = [cols["name"][j] for j in members]
             held = max_deliverable_current_a(d)
             if d.states[s][0] == "power":
                 amounts = (f"{held * d.output.voltage:.2f} W",
@@ -91,39 +93,57 @@ def regulation_failures(spec: FleetSpec, catalogue: dict, _by_design=None) -> li
     return out
 
 
-def _states_used(groups, sel: np.ndarray, occ: np.ndarray) -> dict[str, list[str]]:
-    """Each state some of the groups ``sel`` (one design's) is ever in: the groups' names.
+def _states_used(cols: dict, sel: np.ndarray, occ: np.ndarray, states) -> dict[str, list[int]]:
+    """Each state some of the groups ``sel`` (one design's) is ever in: those groups.
 
-    States in the order the groups first use them (by group, then by the group's states).
+    States in the order the groups first use them (by group, then by the group's states);
+    ``states`` is the groups' common state order, None when they differ.
     """
-    used: dict[str, list[str]] = {}
-    first = groups[int(sel[0])].states
-    if any(g.states is not first and g.states != first  # not one state order
-           for g in map(groups.__getitem__, sel.tolist())):
+    used: dict[str, list[int]] = {}
+    if states is None:  # not one state order: group by group
         for j in sel.tolist():
-            g = groups[j]
-            for k, s in enumerate(g.states):
-                if g.occupancy[:, k].any():
-                    used.setdefault(s, []).append(g.name)
+            for k, s in enumerate(cols["states"][j]):
+                if cols["occupancy"][j][:, k].any():
+                    used.setdefault(s, []).append(j)
         return used
     in_state = occ.any(axis=1)  # (groups, states): ever in that state
     ever = in_state.any(axis=0)
     first_group = np.where(ever, in_state.argmax(axis=0), sel.size)
     for k in sorted(np.flatnonzero(ever).tolist(), key=lambda k: (first_group[k], k)):
-        used[first[k]] = [groups[j].name for j in sel[in_state[:, k]].tolist()]
+        used[states[k]] = sel[in_state[:, k]].tolist()
     return used
 
 
-def _groups_by_design(groups) -> dict[Path, tuple[np.ndarray, np.ndarray]]:
-    """Per design file: (indices of its groups in order, their occupancies stacked).
+_FIELDS = ("design_path", "count", "phase", "name", "coincident_share", "states", "occupancy")
 
-    The stack is ``(groups, hours, states)``: one design's groups in the fleet's order.
+
+def _group_columns(groups) -> dict:
+    """The groups' fields as lists (``name``, ``count``, ``phase``, ...), and ``by_design``.
+
+    ``by_design`` maps each design file to (indices of its groups in order, their
+    occupancies stacked ``(groups, hours, states)``, their common state order or None).
     """
-    index: dict[Path, list[int]] = {}
-    for k, g in enumerate(groups):
-        index.setdefault(g.design_path, []).append(k)
-    return {path: (np.array(ks, dtype=np.int64), np.stack([groups[k].occupancy for k in ks]))
-            for path, ks in index.items()}
+    cols = {f: list(map(attrgetter(f), groups)) for f in _FIELDS}
+    # the same few path objects over and over: told apart by identity, then by value
+    paths = cols["design_path"]
+    first: dict[int, Path] = dict(zip(map(id, paths), paths, strict=True))
+    order: dict[Path, int] = {}
+    code = {i: order.setdefault(p, len(order)) for i, p in first.items()}
+    gcode = np.fromiter(map(code.__getitem__, map(id, paths)), dtype=np.int64,
+                        count=len(groups))
+    members = np.argsort(gcode, kind="stable")
+    bounds = np.cumsum(np.bincount(gcode, minlength=len(order)))
+    state_ids = np.fromiter(map(id, cols["states"]), dtype=np.int64, count=len(groups))
+    occ = cols["occupancy"]
+    by_design = {}
+    for path, n in order.items():
+        sel = members[(bounds[n - 1] if n else 0):bounds[n]]
+        _, first_of = np.unique(state_ids[sel], return_index=True)
+        distinct = [cols["states"][j] for j in sel[first_of].tolist()]
+        states = distinct[0] if all(x == distinct[0] for x in distinct) else None
+        by_design[path] = (sel, np.stack(list(map(occ.__getitem__, sel.tolist()))), states)
+    cols["by_design"] = by_design
+    return cols
 
 
 # ----------------------------------------------------------------------------------
@@ -204,17 +224,19 @@ def _phase_split(count: int, phase: str, phases: list[str]) -> dict[str, int]:
     return {p: base + (1 if k < extra else 0) for k, p in enumerate(phases)}
 
 
-def _units_on_phases(groups, phases: list[str]) -> np.ndarray:
+def _units_on_phases(groups, phases: list[str], cols: dict | None = None) -> np.ndarray:
     """(groups, phases) array of units: a balanced group split as evenly as whole units go.
 
-    All groups at once; the per-group loop (:func:`_units_on_phases_loop`) takes counts
-    that are no 64-bit integers and phases that are not the site's.
+    All groups at once (``cols``: their :func:`_group_columns`); the per-group loop
+    (:func:`_units_on_phases_loop`) takes counts that are no 64-bit integers and phases
+    that are not the site's.
     """
+    cols = cols if cols is not None else _group_columns(groups)
     n_p = len(phases)
     where = {p: k for k, p in enumerate(phases)}
     where["balanced"] = n_p
-    counts = [g.count for g in groups]
-    code = np.fromiter(map(where.get, (g.phase for g in groups), repeat(-1)), dtype=np.int64,
+    counts = cols["count"]
+    code = np.fromiter(map(where.get, cols["phase"], repeat(-1)), dtype=np.int64,
                        count=len(groups))
     if (code < 0).any() or not all(type(c) is int and abs(c) < 2**62 for c in counts):
         return _units_on_phases_loop(groups, phases)
@@ -274,20 +296,20 @@ def _coincident_occupancy_all(occ: np.ndarray, share: np.ndarray, values) -> np.
     return out
 
 
-def _group_rows(spec, cat, groups, gid, tariff, by_design) -> dict:
+def _group_rows(spec, cat, cols, gid, tariff) -> dict:
     """The per-group table's columns (energy, cost, mean and peak figures per unit)."""
     paths = list(spec.designs)
     p_d = [np.array([cat[pa][s].pq.p_w for s in spec.designs[pa].states]) for pa in paths]
     q_d = [np.array([cat[pa][s].pq.q1_var for s in spec.designs[pa].states]) for pa in paths]
     s_max = [float(max(cat[pa][s].pq.s_va for s in spec.designs[pa].states)) for pa in paths]
-    count = [g.count for g in groups]
+    count = cols["count"]
     counts = np.array(count, dtype=float)
-    p_unit = np.empty((len(groups), HOURS))
-    q_mean = np.empty(len(groups))
+    p_unit = np.empty((len(count), HOURS))
+    q_mean = np.empty(len(count))
     for d, pa in enumerate(paths):
-        if pa not in by_design:
+        if pa not in cols["by_design"]:
             continue
-        sel, occ = by_design[pa]  # (g, 24, states)
+        sel, occ, _ = cols["by_design"][pa]  # (g, 24, states)
         p_unit[sel] = occ @ p_d[d]
         q_mean[sel] = (occ @ q_d[d]).mean(axis=1)
     e_day_kwh = counts * p_unit.sum(axis=1) / 1e3
@@ -295,9 +317,8 @@ def _group_rows(spec, cat, groups, gid, tariff, by_design) -> dict:
     names = np.array([spec.designs[pa].name for pa in paths], dtype=object)
     files = np.array([str(pa.name) for pa in paths], dtype=object)
     return {
-        "group": [g.name for g in groups], "design": names[gid].tolist(),
-        "design_file": files[gid].tolist(), "count": count,
-        "phase": [g.phase for g in groups],
+        "group": cols["name"], "design": names[gid].tolist(),
+        "design_file": files[gid].tolist(), "count": count, "phase": cols["phase"],
         "p_unit_mean_w": p_unit.mean(axis=1), "q1_unit_mean_var": q_mean,
         "s_unit_max_va": np.array(s_max)[gid].tolist(),
         "e_kwh_per_year": e_day_kwh * DAYS_PER_YEAR,
@@ -330,18 +351,20 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     kidx = {k: n for n, k in enumerate(keys)}
     n_k, n_p = len(keys), len(phases)
     groups = spec.groups
-    on_phase = _units_on_phases(groups, phases)  # (groups, phases) whole units
+    columns = _group_columns(groups)  # each field of every group, once
+    by_design = columns["by_design"]
+    on_phase = _units_on_phases(groups, phases, columns)  # (groups, phases) whole units
     # per design: its columns in the design-state axis, its groups and their occupancies
     design_ids = {path: n for n, path in enumerate(spec.designs)}
     cols_d = [np.array([kidx[(path, s)] for s in d.states]) for path, d in spec.designs.items()]
-    gid = np.array([design_ids[g.design_path] for g in groups], dtype=np.int64)
-    by_design = _groups_by_design(groups)
+    gid = np.zeros(len(groups), dtype=np.int64)
+    for path, (sel, _, _) in by_design.items():
+        gid[sel] = design_ids[path]
     w = np.zeros((HOURS, n_p, n_k))
-    for path, (sel, occ) in by_design.items():
+    for path, (sel, occ, _) in by_design.items():
         _accumulate(w, on_phase, cols_d[design_ids[path]], sel, occ)
-    rows = _group_rows(spec, cat, groups, gid, tariff, by_design)
-    share = np.array([np.nan if g.coincident_share is None else g.coincident_share
-                      for g in groups])
+    rows = _group_rows(spec, cat, columns, gid, tariff)
+    share = np.array([np.nan if x is None else x for x in columns["coincident_share"]])
     hours_groups = np.flatnonzero(~np.isnan(share)).tolist()
     p_k = np.array([cat[pa][s].pq.p_w for pa, s in keys])
     q_k = np.array([cat[pa][s].pq.q1_var for pa, s in keys])
@@ -361,7 +384,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         # state of most kW, or of most current (x diversity; the rest in the least one)
         for what, metric in (("kW", "p_w"), ("current", "i_rms_a")):
             wc = w.copy()
-            for path, (sel, occ) in by_design.items():
+            for path, (sel, occ, _) in by_design.items():
                 mine = ~np.isnan(share[sel])
                 if not mine.any():
                     continue
@@ -507,10 +530,10 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
             warnings.append(f"design '{d.name}' is specified for {nominal.voltage:.0f} V "
                             f"{nominal.frequency:.0f} Hz but simulated on this site's "
                             f"{site.v_ln_v:.0f} V {site.f_hz:.0f} Hz")
-    failures = regulation_failures(spec, cat, by_design)
+    failures = regulation_failures(spec, cat, columns)
     warnings += [f["text"] for f in failures]
     return FleetResult(
-        spec=spec, summation_label=label, units=sum(g.count for g in spec.groups),
+        spec=spec, summation_label=label, units=sum(columns["count"]),
         peak_hour=peak_label, peak_coincident=coincident, phases=figs, neutral_i_rms_a=neutral.i_rms_a,
         neutral_i1_a=float(abs(neutral.i_h_a[1])), neutral_i_h_a=neutral.i_h_a[: H_MAX + 1],
         p_kw=totals.p_w / 1e3, q1_kvar=totals.q1_var / 1e3, s_kva=totals.s_arith_va / 1e3,

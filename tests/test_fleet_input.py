@@ -14,6 +14,8 @@ import stat
 import pandas as pd
 import pytest
 from conftest import example_path, toml_value
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from fleetpower.cli import EXIT_INPUT
 
@@ -457,3 +459,29 @@ def test_json_carries_the_fleet_figures(cli, folder):
     assert d["pf_arith"] == pytest.approx(d["p_kw"] / d["s_kva"], rel=1e-9)
     assert d["pf"] == pytest.approx(d["p_kw"] / d["s_e_kva"], rel=1e-9)  # IEEE 1459 S_e
     assert 0 < d["pf"] < 1 and d["q1_kvar"] < 0
+
+
+# ----------------------------------------------------------------------------------------
+# inventory profiles read all at once
+# ----------------------------------------------------------------------------------------
+_PROFILE_WORDS = ["idle", "active", "on", "a", "activex", "idl", "on_hold", "x", "\x00", "é"]
+_SPACES = [" ", "  ", "\t", "\n", "\r", "\x0b", "\x0c", "\x1c", "\x1f", "\xa0", "\u2003"]
+
+
+@settings(max_examples=300, deadline=None)
+@given(texts=st.lists(
+    st.lists(st.tuples(st.sampled_from(_PROFILE_WORDS), st.sampled_from(_SPACES)),
+             min_size=22, max_size=26)
+    .map(lambda ws: "".join(w + s for w, s in ws)), min_size=1, max_size=8))
+def test_profiles_read_at_once_are_read_as_one_by_one(texts):
+    # The inventory's 24-hour profiles are split into words all together (on their bytes
+    # when ASCII); the result must be what str.split gives each profile alone (Python's
+    # documented whitespace split), word by word, for any white space and odd words.
+    from fleetpower.io.fleet_file import _state_columns
+
+    states = ("active", "idle", "on")
+    got = _state_columns(texts, states)
+    for k, t in enumerate(texts):
+        words = t.split()
+        want = [states.index(w) if w in states else -1 for w in words]
+        assert list(got[k]) == (want if len(words) == 24 else [-1] * 24), repr(t)

@@ -15,7 +15,7 @@ import io
 import math
 import os
 from dataclasses import dataclass, field
-from itertools import chain, compress, repeat
+from itertools import repeat
 from pathlib import Path
 from typing import Any
 
@@ -548,6 +548,67 @@ def _hours_rows(inv, design, order, idx, hours, share, out) -> None:
     out["peak"][idx] = _objects(share[idx].tolist(), idx.size)
 
 
+_SEP = "\x00"  # between profiles in one joined text (a profile holding it is split alone)
+
+
+def _state_columns(texts: list[str], states: tuple[str, ...]) -> np.ndarray:
+    """(profiles, 24) column of each hour's state in ``states``; -1 where the profile has
+    not 24 names or the name is no state (the row read alone names the fault).
+
+    All profiles split at once: joined with a separator word, split on white space as
+    ``str.split`` does, the separators found among the words.
+    """
+    cols = np.full((len(texts), HOURS), -1, dtype=np.int64)
+    index = {s: k for k, s in enumerate(states)}
+    if not texts or _SEP in index:
+        return cols
+    joined = f" {_SEP} ".join(texts)
+    if joined.count(_SEP) != len(texts) - 1:  # a profile holds the separator itself
+        for k, t in enumerate(texts):
+            words = t.split()
+            if len(words) == HOURS:
+                cols[k] = [index.get(w, -1) for w in words]
+        return cols
+    index[_SEP] = -2
+    code = _ascii_word_codes(joined, index) if joined.isascii() else None
+    if code is None:
+        words = joined.split()
+        code = np.fromiter(map(index.get, words, repeat(-1)), dtype=np.int64,
+                           count=len(words))
+    ends = np.append(np.flatnonzero(code == -2), code.size)  # one past each profile
+    starts = np.append(0, ends[:-1] + 1)
+    full = ends - starts == HOURS
+    cols[full] = code[starts[full, None] + _HOUR_INDEX[None, :]]
+    return cols
+
+
+#: the characters ``str.split()`` splits ASCII text on
+_ASCII_SPACE = np.frombuffer(b" \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f", dtype=np.uint8)
+
+
+def _ascii_word_codes(text: str, index: dict[str, int]) -> np.ndarray:
+    """``[index.get(w, -1) for w in text.split()]`` of an ASCII text, on its bytes.
+
+    The words are the runs of bytes between white space as ``str.split`` finds them; each
+    is compared with the (few) names of ``index`` byte by byte, all words at once.
+    """
+    b = np.frombuffer(text.encode("ascii"), dtype=np.uint8)
+    word = ~np.isin(b, _ASCII_SPACE)
+    edge = np.diff(np.concatenate(([False], word, [False])).astype(np.int8))
+    starts, ends = np.flatnonzero(edge == 1), np.flatnonzero(edge == -1)
+    lengths = ends - starts
+    code = np.full(starts.size, -1, dtype=np.int64)
+    for name, k in index.items():
+        if not name.isascii() or not name:
+            continue
+        key = np.frombuffer(name.encode("ascii"), dtype=np.uint8)
+        cand = np.flatnonzero(lengths == key.size)
+        for j, byte in enumerate(key.tolist()):
+            cand = cand[b[starts[cand] + j] == byte]
+        code[cand] = k
+    return code
+
+
 def _profile_rows(order, idx, profile, share, out) -> None:
     """Occupancy of rows giving 24 state names, all rows of one design at once.
 
@@ -559,13 +620,7 @@ def _profile_rows(order, idx, profile, share, out) -> None:
     ok = out["ok"]
     states, light, _heavy = order
     codes_p, texts = pd.factorize(profile[idx])
-    tokens = list(map(str.split, texts))
-    full = np.fromiter(map(len, tokens), dtype=np.int64, count=len(tokens)) == HOURS
-    index = {s: k for k, s in enumerate(states)}
-    flat = list(chain.from_iterable(compress(tokens, full)))
-    cols = np.full((len(tokens), HOURS), -1, dtype=np.int64)
-    cols[full] = np.fromiter(map(index.get, flat, repeat(-1)), dtype=np.int64,
-                             count=len(flat)).reshape(-1, HOURS)
+    cols = _state_columns(list(texts), states)
     d = share[idx]
     good = (cols >= 0).all(axis=1)[codes_p] & _share_ok(d)
     ok[idx[~good]] = False
