@@ -801,3 +801,17 @@ def engine_is_compiled() -> bool:
 def compile_engine() -> None:
     """Compile (or load from numba's cache) the batch entry point without solving."""
     _shoot_rows.compile(_BATCH_SIGNATURE)
+
+
+def _keep_cache_in_step() -> None:
+    """numba's cached engine follows every engine source file, not only this one
+    (:mod:`fleetpower.engine.cache`): run once, before any engine function is called."""
+    import sys
+
+    from . import cache, circuits, devices
+
+    cache.keep_in_step(cache.engine_dispatchers(devices, circuits, sys.modules[__name__]),
+                       cache.source_stamp(numba_version=numba.__version__))
+
+
+_keep_cache_in_step()
