@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 from . import economics as E
@@ -163,14 +164,23 @@ def replace_role(spec: FleetSpec, path: Path, design: Design) -> tuple[FleetSpec
                          "which of the fleet's designs it replaces")
     on_site = design.on_mains(spec.site.v_ln_v, spec.site.f_hz)
     groups, replaced = [], 0
+    new_states = tuple(design.states)
     for g in spec.groups:
         if spec.designs[g.design_path].role == design.role:
-            missing = [s for s in g.states if s not in design.states]
+            used = [s for j, s in enumerate(g.states) if np.any(g.occupancy[:, j] > 0)]
+            missing = [s for s in used if s not in new_states]
             if missing:
                 raise InputError(design.source, "states",
                                  f"lacks state(s) {', '.join(missing)} that group "
                                  f"'{g.name}' of the fleet uses")
-            groups.append(replace(g, design_path=path))
+            # the group's occupancy columns follow its design's state order: carried over to
+            # the candidate's order (a candidate listing its states otherwise, or with more
+            # of them, must describe the same day)
+            occ = np.zeros((g.occupancy.shape[0], len(new_states)))
+            for j, s in enumerate(g.states):
+                if s in new_states:
+                    occ[:, new_states.index(s)] = g.occupancy[:, j]
+            groups.append(replace(g, design_path=path, states=new_states, occupancy=occ))
             replaced += g.count
         else:
             groups.append(g)

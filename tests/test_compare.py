@@ -174,3 +174,31 @@ def test_demo_json_runs_end_to_end(capsys):
     assert len(d["designs"]) == 4
     assert d["recommendation"].startswith("Choose ")
     assert any(not x["isolated"] for x in d["designs"]) and d["caution"]
+
+
+def test_a_candidate_listing_its_states_in_another_order_is_the_same_fleet(tmp_path):
+    """A group's daily profile names states; a candidate that lists the same states in
+    another order (and one more it never uses) must give the fleet the same figures as the
+    design it replaces (project invariant: fleet = sum of units, each in the state its
+    profile names; found when the occupancy columns kept the replaced design's order)."""
+    from conftest import write_design
+
+    from fleetpower.compare import replace_role
+    from fleetpower.fleet import evaluate_fleet, unit_catalogue
+    from fleetpower.io.design_file import load_design
+    from fleetpower.io.fleet_file import load_fleet
+
+    spec = load_fleet(examples_dir() / "harbour-office.toml")
+    same = tmp_path / "same.toml"
+    same.write_text((examples_dir() / "sensor-dropper-230.toml").read_text())
+    reordered = write_design(tmp_path, "sensor-dropper-230", filename="reordered.toml",
+                             replace_states={"off": "0 mA", "idle": "3 mA",
+                                             "active": "18 mA"})
+    figures = []
+    for path in (same, reordered):
+        design = load_design(path)
+        new, replaced = replace_role(spec, path, design)
+        assert replaced == 3000
+        r = evaluate_fleet(new, unit_catalogue(new.designs))
+        figures.append((r.p_kw, r.q1_kvar, r.e_kwh_per_year))
+    assert figures[0] == pytest.approx(figures[1], rel=1e-9)
