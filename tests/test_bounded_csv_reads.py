@@ -149,3 +149,22 @@ def test_fleet_design_name_longer_than_the_file_system_allows(cli, site):
         "lobby-bridge-dropper.toml", "x" * 600), encoding="utf-8")
     line = _one_line(cli, "fleet", f)
     assert str(f) in line and ".design" in line, line
+
+
+@pytest.mark.parametrize("kind", ["fifo", "dev-zero", "latin-1", "folder"])
+@pytest.mark.parametrize("which", ["smart-plug-capture.csv", "smart-plug-standby-harmonics.csv"])
+def test_measured_designs_capture_that_cannot_be_a_table_is_one_line(cli, site, kind, which):
+    # a FIFO named as a capture was read for ever (pandas blocks on it)
+    (site / which).unlink()
+    named = _make(kind, site / which)
+    line = _one_line(cli, "unit", site / "smart-plug-measured.toml")
+    assert any(n in line for n in named) and WHY[kind] in line, line
+
+
+def test_measured_design_with_a_byte_order_mark_reads_as_without(cli, site):
+    rc1, out1, err1 = cli("unit", site / "smart-plug-measured.toml", "--json")
+    cap = site / "smart-plug-capture.csv"
+    cap.write_bytes(b"\xef\xbb\xbf" + cap.read_bytes())
+    rc2, out2, err2 = cli("unit", site / "smart-plug-measured.toml", "--json")
+    assert rc1 == rc2 == 0, err1 + err2
+    assert out1 == out2

@@ -29,6 +29,7 @@ The analysis is :mod:`fleetpower.pq.capture`. May import ``units``, ``errors`` a
 
 from __future__ import annotations
 
+import io
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -38,7 +39,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..units import registry
-from .files import write_atomic
+from .files import MAX_CAPTURE_BYTES, read_text_bounded, write_atomic
 
 if TYPE_CHECKING:  # pragma: no cover  (pandas is imported when a capture is read)
     import pandas as pd
@@ -61,12 +62,13 @@ def _read_table(path: str | Path) -> pd.DataFrame:
     import pandas as pd
 
     file = str(path)
+    # bounded like the design files (a regular file, UTF-8), at most MAX_CAPTURE_BYTES:
+    # a FIFO or /dev/zero named as a capture is refused instead of read for ever
+    text = read_text_bounded(path, MAX_CAPTURE_BYTES).removeprefix("\ufeff")  # a BOM
     try:
-        df = pd.read_csv(path, comment="#", skipinitialspace=True, dtype=str,
+        df = pd.read_csv(io.StringIO(text), comment="#", skipinitialspace=True, dtype=str,
                          keep_default_na=False)
-    except FileNotFoundError:
-        raise InputError(file, "", "file not found") from None
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
+    except (pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
         first = str(exc).strip().splitlines()[0] if str(exc).strip() else "empty file"
         raise InputError(file, "", f"not a readable CSV table: {first}") from None
     if df.empty:

@@ -159,6 +159,10 @@ MAX_READ_BYTES = 4 * 1024 * 1024
 #: Largest inventory CSV read [bytes]: a fleet of 10^5 groups with 24-hour profiles takes
 #: about 16 MB; twice that is still evaluated well within a minute (README "Input bounds")
 MAX_INVENTORY_BYTES = 32 * 1024 * 1024
+#: Largest capture or harmonic table read [bytes]: a scope's export of 10 mains cycles at
+#: 100 kS/s is about 1 MB (20,000 rows of ~30 bytes); 64 MiB leaves room for about two
+#: million rows (README "Input bounds")
+MAX_CAPTURE_BYTES = 64 * 1024 * 1024
 
 
 def check_path(path: str | Path, key: str = "") -> str:
@@ -176,16 +180,15 @@ def check_path(path: str | Path, key: str = "") -> str:
     return file
 
 
-def read_text_bounded(path: str | Path, max_bytes: int | None = None) -> str:
-    """A regular file's UTF-8 text, bounded: the path checked and stat'ed before opening,
-    at most ``max_bytes`` read (default :data:`MAX_READ_BYTES`).
+def read_bytes_bounded(path: str | Path, max_bytes: int | None = None) -> bytes:
+    """A regular file's bytes, bounded: the path checked and stat'ed before opening, at
+    most ``max_bytes`` read (default :data:`MAX_READ_BYTES`).
 
     Raises
     ------
     InputError
         Naming the file: a NUL byte or too long a path, not found, not a regular file
-        (a directory, FIFO or device), larger than :data:`MAX_READ_BYTES`, unreadable or
-        not UTF-8 text.
+        (a directory, FIFO or device), larger than the bound, or unreadable.
     """
     import stat
 
@@ -210,7 +213,19 @@ def read_text_bounded(path: str | Path, max_bytes: int | None = None) -> str:
         raise InputError(file, "", f"cannot read: {exc.strerror or exc}") from None
     if len(data) > limit:
         raise InputError(file, "", f"file larger than {limit} bytes")
+    return data
+
+
+def read_text_bounded(path: str | Path, max_bytes: int | None = None) -> str:
+    """A regular file's UTF-8 text, bounded (:func:`read_bytes_bounded`).
+
+    Raises
+    ------
+    InputError
+        Naming the file: as :func:`read_bytes_bounded`, or not UTF-8 text.
+    """
+    data = read_bytes_bounded(path, max_bytes)
     try:
         return data.decode("utf-8")
     except UnicodeDecodeError:
-        raise InputError(file, "", "not UTF-8 text") from None
+        raise InputError(str(path), "", "not UTF-8 text") from None

@@ -40,6 +40,7 @@ from pydantic import ValidationError
 
 from ..errors import InputError
 from ..io.capture_file import read_capture, read_harmonic_table
+from ..io.files import MAX_CAPTURE_BYTES, read_bytes_bounded
 from ..io.schema import Frequency, Strict, Voltage
 from ..pq.capture import (
     DEFAULT_SCALING,
@@ -138,11 +139,10 @@ class Measured(Topology):
                              "harmonics = \"file.csv\"")
         name = t.capture if t.capture is not None else t.harmonics
         path = Path(file).parent / name if file != "<input>" else Path(name)
-        try:
-            blob = path.read_bytes()
-        except OSError as exc:
-            raise InputError(str(path), "", f"cannot read ({exc.strerror or exc}); named by "
-                             f"{file}: {key}") from None
+        try:  # bounded: a FIFO or /dev/zero named here is refused, not read for ever
+            blob = read_bytes_bounded(path, MAX_CAPTURE_BYTES)
+        except InputError as exc:
+            raise InputError(exc.file, "", f"{exc.message}; named by {file}: {key}") from None
         if t.harmonics is not None:
             for k in ("voltage", "frequency"):
                 if getattr(t, k) is None:
