@@ -26,6 +26,7 @@ import pandas as pd
 
 from . import economics as E
 from . import limits as L
+from .gadget_range import unique
 from .io.design_file import Design
 from .io.fleet_file import HOURS, FleetSpec
 from .pq.derating import conductor_loading, harmonic_loss_factor, k_factor_to_order, tdd_pct
@@ -210,6 +211,9 @@ class FleetResult:
     #: failed checks of the fleet's own: a design that cannot power its load in a state a
     #: group uses (dicts: check, text, need, design, state, groups)
     failures: list[dict] = field(default_factory=list)
+    #: designs' inputs and results outside the range of small mains gadgets (on this
+    #: site's mains; their messages are also in ``warnings``)
+    range_warnings: list = field(default_factory=list)
 
     @property
     def total_cost_per_year(self) -> float:
@@ -515,6 +519,8 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     if site.phase_rating_a and neutral_max["i_rms_a"] > worst["i_rms_a"]:
         warnings.append(f"the neutral carries more than any phase ({neutral_max['i_rms_a']:.1f}"
                         f" A vs {worst['i_rms_a']:.1f} A): triplen harmonics add there")
+    outside = unique(w for pa, s in keys for w in getattr(cat[pa][s], "range_warnings", ()))
+    warnings[:0] = [w.message for w in outside]
     measured = []
     for pa, s in keys:
         res = cat[pa][s]  # a StateResult (or any object with its pq figures, in tests)
@@ -545,6 +551,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
         warnings=warnings, failures=failures, pf_basis=pf_basis, pf_arith=totals.pf_arith,
         peak_case=case_labels[peak], worst_phase=worst, neutral_max=neutral_max,
         assumptions=_assumptions(spec, bool(hours_groups)), measured=measured,
+        range_warnings=outside,
     )
 
 

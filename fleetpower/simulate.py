@@ -30,8 +30,9 @@ import numpy as np
 
 from .engine import layout
 from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, SteadyState, solve_periodic
-from .errors import InputError, suggest
+from .errors import InputError, SolverError, suggest
 from .executors import local_executor
+from .gadget_range import RangeWarning, design_warnings, result_warnings, unique
 from .io.design_file import Design
 from .pq.ieee1459 import PowerQuality, power_quality_rows
 from .pq.spectrum import phasors_vs_voltage
@@ -134,6 +135,9 @@ class StateResult:
     voltage_scaling: str | None = None
     #: how reports show the circuit-only figures above when they are None
     unknown_note: str | None = None
+    #: the design's inputs and this state's line current and input power that lie outside
+    #: the range of small mains gadgets (:mod:`fleetpower.gadget_range`)
+    range_warnings: tuple[RangeWarning, ...] = ()
 
     @property
     def circuit_known(self) -> bool:
@@ -229,9 +233,16 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
                 iterations=int(sol.iterations[b]),
                 residual_evaluations=int(sol.residual_evaluations[b]),
                 x_start=tuple(x_starts[b]),
+                range_warnings=_range_warnings(design, state, pq),
             )
         )
     return results
+
+
+def _range_warnings(design: Design, state: str, pq: PowerQuality) -> tuple[RangeWarning, ...]:
+    """What of a case lies outside the range of small mains gadgets: the design's inputs
+    and the state's line current and input power."""
+    return design_warnings(design) + result_warnings(design.name, state, pq.i_rms_a, pq.p_w)
 
 
 
@@ -243,7 +254,8 @@ def _direct_result(case: Case, samples_per_cycle: int) -> StateResult:
         state=case.state, mains_factor=case.mains_factor,
         load_a=case.load_a,
         t_s=d.t_s, v_v=d.v_v, i_a=d.i_a, pq=d.pq, basis=d.basis, notes=d.notes,
-        voltage_scaling=d.voltage_scaling, unknown_note=impl.unknown_note)
+        voltage_scaling=d.voltage_scaling, unknown_note=impl.unknown_note,
+        range_warnings=_range_warnings(case.design, case.state, d.pq))
 
 
 #: results the process-wide cache keeps (least recently used dropped first). One result
@@ -385,9 +397,12 @@ def run(
                         for k, x in zip(first, x0s, strict=True))
         labels = [f"{cases[k].design.name} / {cases[k].state} at "
                   f"{cases[k].mains_factor:.2f}x mains" for k in first]
-        (sol,) = executor(solve_batch, [Batch(np.array(rows), np.array(x0s),
-                                              samples_per_cycle, labels, coarse_start,
-                                              periodic_rtol)])
+        try:
+            (sol,) = executor(solve_batch, [Batch(np.array(rows), np.array(x0s),
+                                                  samples_per_cycle, labels, coarse_start,
+                                                  periodic_rtol)])
+        except SolverError as exc:
+            raise _explained(exc, [cases[k].design for k in first]) from None
         solved = _state_results([cases[k] for k in first], sol)
         if cache is not None:
             cache.solves += len(first)
@@ -397,6 +412,16 @@ def run(
             for k in todo[key]:
                 out[k] = res
     return out  # type: ignore[return-value]
+
+
+def _explained(exc: SolverError, designs: list[Design]) -> SolverError:
+    """The solver's refusal, with the inputs outside the range of small mains gadgets
+    named when there are any (the likely reason)."""
+    outside = unique(w for d in designs for w in design_warnings(d))
+    if not outside:
+        return exc
+    return SolverError(f"{exc}; outside the range of small mains gadgets: "
+                       + "; ".join(f"design '{w.design}' {w.short}" for w in outside))
 
 
 def simulate_cases(

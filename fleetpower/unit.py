@@ -19,6 +19,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .errors import InputError, suggest
+from .gadget_range import RangeWarning, unique
 from .io.design_file import ConverterOutput, Design
 from .limits.applicability import eps_figures, unit_compliance
 from .simulate import (  # noqa: F401
@@ -167,6 +168,8 @@ class UnitAnalysis:
     eps: tuple[float, float, list[float]] | None = None
     #: rows against every applicable limit set (:func:`fleetpower.limits.applicability.unit_compliance`)
     compliance: tuple[dict, ...] = ()
+    #: inputs and results outside the range of small mains gadgets (also in ``warnings``)
+    range_warnings: tuple[RangeWarning, ...] = ()
 
     def summary(self) -> pd.DataFrame:
         """One row per state: the headline power-quality figures with units in names."""
@@ -240,6 +243,8 @@ def analyse_unit(design: Design, states: list[str] | None = None,
             warnings.append(
                 f"state '{r.state}': energy balance closes only to {r.balance.residual_pct:.2f} %"
             )
+    outside = tuple(unique(w for r in nominal for w in r.range_warnings))
+    warnings[:0] = [w.message for w in outside]
     st = stresses(design, stressed)
     for s in st:
         if s.verdict == "fail":
@@ -255,6 +260,7 @@ def analyse_unit(design: Design, states: list[str] | None = None,
         hand=hand,
         eps=(eps_figures(design) if design.external_power_supply
              and isinstance(design.output, ConverterOutput) else None),
+        range_warnings=outside,
     )
     rows = unit_compliance(design, unit, limits_file=limits_file)
     return replace(unit, compliance=tuple(rows))

@@ -8,7 +8,7 @@ Owns: the design-file schema (:class:`Design`; its topology names, parts and out
 models come from the registry in :mod:`fleetpower.topologies`, the field types from
 :mod:`fleetpower.io.schema`),
 :func:`load_design`, :func:`design_from_dict`, :func:`parse_load`. May import ``errors``,
-``units``, the rest of ``io`` and the topology registry; nothing that simulates or
+``units``, ``gadget_range``, the rest of ``io`` and the topology registry; nothing that simulates or
 evaluates.
 """
 
@@ -20,6 +20,7 @@ from typing import Annotated, Any, Literal, Union
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
 from ..errors import InputError, suggest
+from ..gadget_range import refuse_design
 from ..spread.tolerance import SpreadSpec, read_spread_table, split_tolerances
 from ..topologies import REGISTRY, TOPOLOGIES, Topology
 from .schema import (  # noqa: F401 (re-exported)
@@ -228,6 +229,9 @@ def design_from_dict(data: dict, file: str = "<input>") -> Design:
                 file, key, f"unknown state {name!r}{suggest(name, design.states)}; the "
                 f"states are {', '.join(design.states)}",
             )
+    # mains no small gadget's model means anything on (data/gadget_ranges.csv); values
+    # merely unusual are simulated with a warning (fleetpower.gadget_range)
+    refuse_design(design, file=file)
     design = design.topology_impl.complete(design)
     design.topology_impl.check(design)
     return design

@@ -5,7 +5,7 @@ daily occupancy of each group's states. Each design file is read once and put on
 site's mains. Any problem is an :class:`fleetpower.errors.InputError` naming the file and
 the key (or CSV row and column).
 
-May import ``errors``, ``units``, the rest of ``io`` and the pure mathematics of ``pq``;
+May import ``errors``, ``units``, ``gadget_range``, the rest of ``io`` and the pure mathematics of ``pq``;
 nothing that simulates or evaluates.
 """
 
@@ -24,6 +24,7 @@ import pandas as pd
 
 from ..economics import life_problem, rate_problem
 from ..errors import InputError, suggest
+from ..gadget_range import refuse_outside
 from ..pq.polyphase import system_phases
 from ..units import parse_quantity
 from .design_file import Design, Mains, load_design
@@ -166,6 +167,9 @@ def _site(file: str, d: Any) -> Site:
 
     v_ln = q("voltage", "voltage")
     f = q("frequency", "frequency")
+    # mains no small gadget's model means anything on (data/gadget_ranges.csv)
+    refuse_outside("mains.voltage", v_ln, file=file, where="site.voltage")
+    refuse_outside("mains.frequency", f, file=file, where="site.frequency")
     isc = q("short_circuit_current", "current")
     src = "given short-circuit current" if isc else ""
     s_tr = q("transformer_rating", "power") if "transformer_rating" in d else None

@@ -4,8 +4,9 @@ The shipped table is ``data/markets.csv`` (format in ``data/markets.md``); a use
 the same format adds markets or overrides shipped ones by their ``market`` id. Any problem
 is an :class:`~fleetpower.errors.InputError` naming the file, the row and the column.
 
-Owns: the market-table format and :class:`Market`. May import ``errors``, ``io.files`` and
-``_resources`` only; the limit-set ids a market names are checked by the caller against
+Owns: the market-table format and :class:`Market`. May import ``errors``, ``io.files``,
+``_resources`` and ``gadget_range`` (its mains refusals) only; the limit-set ids a market
+names are checked by the caller against
 the shipped limit tables (``io`` imports nothing that evaluates).
 """
 
@@ -23,6 +24,7 @@ import pandas as pd
 
 from .._resources import data_dir
 from ..errors import FleetpowerError, InputError, suggest
+from ..gadget_range import refuse_outside
 from .files import check_path, read_text_bounded
 
 #: the shipped market table, in ``data/``
@@ -129,10 +131,16 @@ def read_market_table(path: str | Path, known_sets: Iterable[str] | None = None)
                 if s not in known:
                     raise InputError(file, f"row {row}, column limit_sets",
                                      f"unknown limit set {s!r}{suggest(s, known)}")
+        v_ln = _number(file, row, "v_ln_v", rec["v_ln_v"], positive=True)
+        f_hz = _number(file, row, "frequency_hz", rec["frequency_hz"], positive=True)
+        # mains no small gadget's model means anything on (data/gadget_ranges.csv)
+        refuse_outside("mains.voltage", v_ln, file=file, where=f"row {row}, column v_ln_v")
+        refuse_outside("mains.frequency", f_hz, file=file,
+                       where=f"row {row}, column frequency_hz")
         out[mid] = Market(
             market=mid, title=rec["title"] or mid,
-            v_ln_v=_number(file, row, "v_ln_v", rec["v_ln_v"], positive=True),
-            frequency_hz=_number(file, row, "frequency_hz", rec["frequency_hz"], positive=True),
+            v_ln_v=v_ln,
+            frequency_hz=f_hz,
             limit_sets=sets,
             price_per_kwh=_number(file, row, "price_per_kwh", rec["price_per_kwh"],
                                   positive=False),

@@ -17,6 +17,7 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
+from ..gadget_range import unique
 from ..product_line import LineResult
 from .format import fmt, humanize
 from .model import _clean
@@ -75,6 +76,7 @@ def line_to_dict(r: LineResult) -> dict:
         co2_kg=("co2_kg", "sum")).reset_index()
     cost = inst.groupby(["currency", "year"], sort=True)["cost"].sum()
     ff = r.fix_first()
+    outside = unique(w for a in r.analyses.values() for w in a.range_warnings)
     return _clean({
         "product_line": spec.name, "file": spec.file, "first_year": spec.first_year,
         "sales_years": spec.sales_years, "horizon_years": spec.horizon_years,
@@ -89,6 +91,8 @@ def line_to_dict(r: LineResult) -> dict:
                              for cur in dict.fromkeys(inst["currency"])},
         "fix_first": {k: [_fix(x) for x in _records(v)] for k, v in ff.items()},
         "caution": LINE_CAUTION if r.cautions else None,
+        "warnings": [w.message for w in outside],
+        "range_warnings": [w.to_dict() for w in outside],
     })
 
 
@@ -186,6 +190,9 @@ def render_line(d: dict, console: Console) -> None:
                        f"{x['driver']} {fmt(x['driver_w'], 2, 'W')} of "
                        f"{fmt(x['driver_of_p_w'], 2, 'W')} ({x['driver_state']})")
         console.print(ft)
+    if d.get("warnings"):
+        console.print(Panel("\n".join(f"- {humanize(w)}" for w in d["warnings"]),
+                            title="Warnings", border_style="yellow", title_align="left"))
     if d.get("caution"):
         console.print(Panel(Text(d["caution"], style="bold"), title="SAFETY",
                             border_style="red", box=box.DOUBLE))
@@ -252,6 +259,8 @@ def line_markdown(d: dict) -> str:
                          f"at {fmt(x['worst_used_pct'], 3, '%')}; {x['installed_kwh']:,.0f} "
                          f"kWh installed; largest standby loss {x['driver']} "
                          f"{fmt(x['driver_w'], 2, 'W')} of {fmt(x['driver_of_p_w'], 2, 'W')}")
+    if d.get("warnings"):
+        lines += ["", "## Warnings", ""] + [f"- {humanize(w)}" for w in d["warnings"]]
     if d.get("caution"):
         lines += ["", "## Safety", "", d["caution"]]
     lines += ["", "Markets, prices and CO2 factors are figures of the trade recorded from "

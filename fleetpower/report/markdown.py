@@ -33,6 +33,8 @@ def compare_markdown(d: dict) -> str:
         lines += ["", "Every candidate (groups they do not replace) fails: "
                   + "; ".join(humanize(f) for f in d["shared_failures"])
                   + " - not counted against any candidate."]
+    if d.get("warnings"):
+        lines += ["", "## Warnings", ""] + [f"- {humanize(w)}" for w in d["warnings"]]
     lines += ["", "## Recommendation", "", humanize(d["recommendation"]), ""]
     if d.get("basis"):
         lines += [f"Designs enter as: {d['basis']}.", ""]

@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import FleetpowerError
+from ..gadget_range import unique
 from ..pq.spectrum import harmonic_columns
 from ..simulate import StateResult
 from ..unit import UnitAnalysis
@@ -123,6 +124,7 @@ def unit_to_dict(u: UnitAnalysis) -> dict:
             for s in u.stresses
         ],
         "warnings": list(u.warnings),
+        "range_warnings": [w.to_dict() for w in u.range_warnings],
     }
     unknown = next((r.unknown_note for r in u.states if not r.circuit_known), None)
     if unknown is not None:
@@ -204,6 +206,7 @@ def fleet_to_dict(r) -> dict:
         "groups": r.groups.to_dict("records"),
         "hourly": r.hourly.to_dict("records"),
         "warnings": list(r.warnings),
+        "range_warnings": [w.to_dict() for w in r.range_warnings],
         "failures": list(r.failures),
     }
     if r.measured:
@@ -262,7 +265,11 @@ def compare_to_dict(cmp) -> dict:
             for y, r in c.lifetime.iterrows()
         ]
         d["groups"] = c.fleet.groups.to_dict("records")
+        d["range_warnings"] = [w.to_dict() for w in unique(
+            [*c.unit.range_warnings, *c.fleet.range_warnings])]
         designs.append(d)
+    outside = unique(w for c in cmp.candidates
+                     for w in (*c.unit.range_warnings, *c.fleet.range_warnings))
     return _clean({
         "fleet": cmp.fleet_name,
         "file": cmp.fleet_file,
@@ -277,6 +284,8 @@ def compare_to_dict(cmp) -> dict:
         "recommendation": cmp.recommendation,
         **({"basis": cmp.basis} if getattr(cmp, "basis", None) else {}),
         "caution": _compare_caution([c.design.is_isolated for c in cmp.candidates]),
+        "warnings": [w.message for w in outside],
+        "range_warnings": [w.to_dict() for w in outside],
     })
 
 

@@ -11,6 +11,7 @@ import math
 from pathlib import Path
 
 import numpy as np
+from rich.markup import escape
 
 from ..spread.study import SpreadResult
 from .format import fmt, humanize, key_label_unit
@@ -83,6 +84,8 @@ def spread_to_dict(result: SpreadResult) -> dict:
         "worst": worst,
         "ageing": None,
         "solve_s": result.solve_s,
+        "warnings": [w.message for w in plan.range_warnings],
+        "range_warnings": [w.to_dict() for w in plan.range_warnings],
     }
     ag = result.ageing
     if ag is not None:
@@ -145,6 +148,8 @@ def render_spread(report: dict, console) -> None:
         console.print(f"[yellow]{report['note']}[/yellow]")
     if report["caution"]:
         console.print(f"[bold red]{report['caution']}[/bold red]")
+    for w in report.get("warnings", []):
+        console.print(f"[yellow]Warning: {escape(humanize(w))}[/yellow]")
     t = table("Toleranced values")
     for col in ("key", "nominal", "distribution", "band", "source"):
         t.add_column(col, overflow="fold", no_wrap=col == "key")

@@ -427,6 +427,9 @@ def render_compare(d: dict, console: Console) -> None:
                             border_style="red", box=box.DOUBLE))
     if d.get("basis"):
         console.print(Text(f"Designs enter as: {d['basis']}", style="bold"))
+    if d.get("warnings"):
+        console.print(Panel("\n".join(f"- {humanize(w)}" for w in d["warnings"]),
+                            title="Warnings", border_style="yellow", title_align="left"))
     console.print(Panel(Text(humanize(d["recommendation"]), style="bold"), title="Recommendation",
                         title_align="left", box=box.ROUNDED))
 

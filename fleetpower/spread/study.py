@@ -32,6 +32,7 @@ import numpy as np
 from .. import simulate as sim
 from ..errors import InputError, SolverError
 from ..executors import Executor, chunk_ranges, local_executor
+from ..gadget_range import RangeWarning, unique
 from ..io.design_file import ConverterOutput, Design
 from ..topologies.capacitive_dropper import charge_pump_limit_a
 from .ageing import DEFAULT_LOSS_PER_YEAR, capacitance_at_year_f, loss_rate_per_year
@@ -133,6 +134,8 @@ class SpreadPlan:
     #: nominals (:class:`WarmFit`), made on pilot samples; None: the samples start from
     #: the nominal solution ``warm``
     warm_fit: WarmFit | None = None
+    #: the nominal unit's inputs and results outside the range of small mains gadgets
+    range_warnings: tuple[RangeWarning, ...] = ()
 
     def starts(self, values: np.ndarray) -> list[tuple[float, ...]] | None:
         """Fitted starting unknowns of every case of the samples ``values`` (flat, sample
@@ -167,11 +170,13 @@ def _sample_cases(design: Design) -> list[sim.Case]:
 WARM_START_ABOVE_CYCLES = 4
 
 
-def _warm_start(design: Design, samples_per_cycle: int) -> tuple[tuple[float, ...], ...]:
+def _warm_start(design: Design, samples_per_cycle: int, nominal=None
+                ) -> tuple[tuple[float, ...], ...]:
     """The nominal solution's unknowns at t = 0 per case of a unit, or () for a cold start."""
     # decided on the cold start's cycles (the engine's coarse first solve left out: a
     # warm-started sample skips it, and it would blur the dropper/switch-mode contrast)
-    nominal = sim.run(_sample_cases(design), samples_per_cycle, cache=None, coarse_start=0)
+    if nominal is None:
+        nominal = _nominal(design, samples_per_cycle)
     if max(r.iterations for r in nominal) <= WARM_START_ABOVE_CYCLES:
         return ()
     return tuple(r.x_start for r in nominal)
@@ -259,6 +264,11 @@ def _warm_fit(design: Design, spreads, n: int, values_of, warm, samples_per_cycl
     return WarmFit(quadratic, tuple(fits))
 
 
+def _nominal(design: Design, samples_per_cycle: int) -> list[sim.StateResult]:
+    """The nominal unit's cases solved cold (the warm start and the range check read it)."""
+    return sim.run(_sample_cases(design), samples_per_cycle, cache=None, coarse_start=0)
+
+
 def plan_spread(
     design: Design,
     *,
@@ -305,9 +315,12 @@ def plan_spread(
         n = len(table)
     else:
         n = int(samples)
+    nominal = _nominal(design, samples_per_cycle)
+    outside = tuple(unique(w for r in nominal[:len(design.states)] for w in r.range_warnings))
     plan = SpreadPlan(design, spreads, "corners" if corners else "monte-carlo", int(seed), n,
-                      table, labels, samples_per_cycle, _warm_start(design, samples_per_cycle),
-                      limits_file, check_limits, periodic_rtol)
+                      table, labels, samples_per_cycle,
+                      _warm_start(design, samples_per_cycle, nominal),
+                      limits_file, check_limits, periodic_rtol, range_warnings=outside)
     fit = _warm_fit(design, spreads, n, plan.values, plan.warm, samples_per_cycle,
                     periodic_rtol)
     return dataclasses.replace(plan, warm_fit=fit) if fit is not None else plan
