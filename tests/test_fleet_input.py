@@ -194,6 +194,12 @@ CASES = [
         ["unknown key", "did you mean 'summation'"],
     ),
     ("unknown summation", _top(summation="rss"), "summation", ["iec61000-3-6"]),
+    # the range of small mains gadgets (data/gadget_ranges.csv): no low-voltage mains
+    # runs above 1000 V (IEC 60038, from memory), none at 1 kHz
+    ("site voltage above low voltage", _site(voltage="11 kV"), "site.voltage",
+     ["outside what fleetpower can model"]),
+    ("site frequency of no mains", _site(frequency="1 kHz"), "site.frequency",
+     ["outside what fleetpower can model"]),
 ]
 
 
