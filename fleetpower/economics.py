@@ -44,6 +44,11 @@ __all__ = [
 ]
 
 
+#: lowest usable rate [1/year]: at -50 %/year a year's present worth doubles year on year;
+#: no tariff trend or cost of capital comes near it (common practice, no source)
+RATE_MIN = -0.5
+
+
 def rate_problem(rate_per_year: float) -> str | None:
     """Why a discount or escalation rate is not usable, or None when it is.
 
@@ -61,16 +66,20 @@ def rate_problem(rate_per_year: float) -> str | None:
 
     Notes
     -----
-    The upper bound is this project's reading of "absurd": a rate of 1.0 doubles money
-    every year; no utility tariff or cost of capital comes near it (common practice, no
-    source). Rates between -100 % and 0 are accepted (falling energy prices, negative
-    real rates).
+    The bounds are this project's reading of "absurd": a rate of 1.0 doubles money every
+    year, one of -0.5 doubles a year's present worth year on year; no utility tariff or
+    cost of capital comes near either (common practice, no source). Rates between -50 %
+    and 0 are accepted (falling energy prices, negative real rates).
     """
     r = float(rate_per_year)
     if not np.isfinite(r):
         return f"must be a finite number, got {rate_per_year!r}"
     if r <= -1.0:
         return f"{r:g} is -100 %/year or less; give a rate as a fraction above -1"
+    if r <= RATE_MIN:
+        return (f"{r:g} is {RATE_MIN:.0%}/year or less: each year would be worth at least "
+                "twice the one before; give a rate as a fraction above "
+                f"{RATE_MIN:g} (e.g. -0.02 for prices falling 2 % a year)")
     if r >= 1.0:
         return (f"{r:g} means {r * 100:g} %/year; give a rate as a fraction "
                 f"({r:g} % is {r / 100:g})")
@@ -103,12 +112,16 @@ def horizon_problem(rate_per_year: float, escalation_per_year: float, years: int
     -----
     The factor of year k is ``(1 + g)**(k-1) (1 + r)**-k``; its natural log is linear in k,
     so its largest magnitude over k = 1..n is at k = 1 or k = n. Both are checked against
-    :data:`LOG_FACTOR_MAX`.
+    :data:`LOG_FACTOR_MAX`, and so is the undiscounted escalation ``(1 + g)**(n-1)`` (the
+    nominal cost column). :func:`lifetime_cost` takes each year's factor whole, in logs, so
+    its two parts may each be beyond floating point.
     """
     r, g, n = float(rate_per_year), float(escalation_per_year), int(years)
     if rate_problem(r) or rate_problem(g) or n < 1:
         return None  # told apart by rate_problem / life_problem
-    worst = max(abs((k - 1) * np.log1p(g) - k * np.log1p(r)) for k in (1, n))
+    # the discounted factor of year 1 or n, and the undiscounted escalation of year n
+    worst = max(*(abs((k - 1) * np.log1p(g) - k * np.log1p(r)) for k in (1, n)),
+                abs((n - 1) * np.log1p(g)))
     if worst > LOG_FACTOR_MAX:
         return (f"discounting at {r:.1%} a year with energy {g:+.1%} a year over {n} years "
                 f"scales a year's cost by about 1e{worst / np.log(10):.0f}, too large to "
@@ -288,10 +301,16 @@ def lifetime_cost(
     if why:
         raise ValueError(why)
     k = np.arange(1, years + 1)
+    log_g = np.log1p(_check_rate(escalation_per_year))
+    log_r = np.log1p(_check_rate(rate_per_year))
     with np.errstate(over="raise", invalid="raise"):
-        running = a * np.exp((k - 1) * np.log1p(_check_rate(escalation_per_year)))
+        running = a * np.exp((k - 1) * log_g)
         cost = np.concatenate([[float(purchase_cost)], running])
-        discounted = cost * present_value_factor(rate_per_year, np.arange(years + 1))
+        # each year's factor (1 + g)**(k-1) / (1 + r)**k taken whole: its two parts may each
+        # leave floating point (-98 %/year over 171 years: (1 + r)**-k ~ 1e309) while the
+        # product does not
+        discounted = np.concatenate([[float(purchase_cost)],
+                                     a * np.exp((k - 1) * log_g - k * log_r)])
     return pd.DataFrame(
         {
             "cost": cost,

@@ -23,6 +23,7 @@ SMPS = EXAMPLES / "desk-sensor-smps-230.toml"
     ("--escalation", "2", "0.02"),
     ("--rate", "-1", "-100 %"),
     ("--escalation", "-1.5", "-100 %"),
+    ("--rate", "-0.75", "-50%/year or less"),  # a present worth doubling year on year
     ("--years", "-3", "at least 1"),
     ("--years", "0", "at least 1"),
 ])

@@ -166,17 +166,31 @@ def test_horizon_beyond_floating_point_is_named():
     """Rates each usable, whose combination over a long life leaves float64.
 
     Year n's present-worth factor is (1 + r)**-n (textbook P/F, Sullivan et al.); at
-    r = -98.4 %/year and n = 168 it is 0.016**-168 = e**694.6 ~ 1e301, at the edge of float64
-    (max ~1.8e308, IEEE 754), so any cost times it overflows.
+    r = -45 %/year and n = 1000 it is 0.55**-1000 = e**597.8 ~ 1e260, beyond the bound kept
+    for costs (float64 max ~1.8e308, IEEE 754).
     """
     from fleetpower.economics import horizon_problem
 
-    why = horizon_problem(-0.984, 0.0, 168)
-    assert why and "-98.4%" in why and "168 years" in why and "1e302" in why
+    why = horizon_problem(-0.45, 0.0, 1000)
+    assert why and "-45.0%" in why and "1000 years" in why and "1e260" in why
     assert horizon_problem(0.06, 0.02, 10) is None
-    assert horizon_problem(-0.5, 0.0, 10) is None  # 2**10: fine
+    assert horizon_problem(-0.45, 0.0, 10) is None  # 0.55**-10 ~ 400: fine
+    assert horizon_problem(0.05, 0.99, 2000)  # the nominal cost alone: 1.99**1999
     with pytest.raises(ValueError, match="too large to represent"):
-        ec.lifetime_cost(1.0, 1.0, -0.984, 168)
+        ec.lifetime_cost(1.0, 1.0, -0.45, 1000)
+
+
+def test_each_years_factor_is_taken_whole():
+    """(1 + g)**(k-1) / (1 + r)**k at r = -45 %, g = -20 % and k = 1300: the discount part
+    alone is 0.55**-1300 = e**777 (beyond float64), the product e**(1299 ln 0.8 - 1300 ln
+    0.55) = e**487.3 is not; the last discounted cost is that product (closed form,
+    computed in logs with the standard library)."""
+    import math
+
+    df = ec.lifetime_cost(0.0, 1.0, -0.45, 1300, -0.2)
+    last = float(df["cost_discounted"].iloc[-1])
+    expect = math.exp(1299 * math.log1p(-0.2) - 1300 * math.log1p(-0.45))
+    assert math.isfinite(last) and last == pytest.approx(expect, rel=1e-12)
 
 
 def test_horizon_problem_named_where_the_rate_came_from(tmp_path, capsys):
@@ -184,6 +198,6 @@ def test_horizon_problem_named_where_the_rate_came_from(tmp_path, capsys):
     from fleetpower.cli import main
 
     code = main(["compare", "examples/harbour-office.toml", "--design",
-                 "examples/desk-sensor-smps-230.toml", "--rate", "-0.984", "--years", "168"])
+                 "examples/desk-sensor-smps-230.toml", "--rate", "-0.45", "--years", "1000"])
     err = capsys.readouterr().err.strip().splitlines()
     assert code == 2 and len(err) == 1 and "--rate" in err[0] and "represent" in err[0]
