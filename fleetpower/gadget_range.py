@@ -128,7 +128,24 @@ def ranges() -> tuple[RangeRow, ...]:
 
 def rows_for(key: str, outside: str | None = None) -> tuple[RangeRow, ...]:
     """The rows of ``key`` (all, or only those with ``outside`` = "refuse" / "warn")."""
-    return tuple(r for r in ranges() if r.key == key and outside in (None, r.outside))
+    return _index().get((key, outside), ())
+
+
+@lru_cache(maxsize=1)
+def _index() -> dict[tuple[str, str | None], tuple[RangeRow, ...]]:
+    """:func:`rows_for` of every key and kind, built once (it runs per solved case)."""
+    out: dict[tuple[str, str | None], list[RangeRow]] = {}
+    for r in ranges():
+        for kind in (None, r.outside):
+            out.setdefault((r.key, kind), []).append(r)
+    return {k: tuple(v) for k, v in out.items()}
+
+
+@lru_cache(maxsize=1)
+def _input_rows() -> tuple[tuple[str, str, str], ...]:
+    """(row key, table, field) of every ``mains.*`` / ``parts.*`` row with a warning range."""
+    keys = dict.fromkeys(r.key for r in ranges() if r.outside == "warn")
+    return tuple((k, *k.split(".", 1)) for k in keys if k.split(".", 1)[0] in ("mains", "parts"))
 
 
 # ----------------------------------------------------------------------------------
@@ -229,12 +246,9 @@ def design_warnings(design) -> tuple[RangeWarning, ...]:
     """
     out: list[RangeWarning] = []
     name = design.name
-    for row_key in dict.fromkeys(r.key for r in ranges()):
-        table, _, field = row_key.partition(".")
-        if table == "mains":
-            out += _warn(row_key, row_key, getattr(design.mains, field, None), name)
-        elif table == "parts":
-            out += _warn(row_key, row_key, getattr(design.parts, field, None), name)
+    holders = {"mains": design.mains, "parts": design.parts}
+    for row_key, table, field in _input_rows():
+        out += _warn(row_key, row_key, getattr(holders[table], field, None), name)
     for state, load in design.states.items():
         if not (isinstance(load, tuple) and len(load) == 2):
             continue  # a measured gadget's state is a file, not a load

@@ -175,8 +175,12 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
     vx_peak = np.max(np.abs(vx_all), axis=1)
     vx_rms = np.sqrt(np.mean(vx_all * vx_all, axis=1))
     x_starts = sol.states[:, 0].tolist()
+    inputs_of: dict[int, tuple[RangeWarning, ...]] = {}  # a design's inputs: once a batch
     for b, case in enumerate(cases):
         design, state, factor = case.design, case.state, case.mains_factor
+        inputs = inputs_of.get(id(design))
+        if inputs is None:
+            inputs = inputs_of[id(design)] = design_warnings(design)
         load_a = design.load_current_a(state) if case.load_a is None else case.load_a
         pr = sol.probes[b]
         mean = means[b]
@@ -233,16 +237,19 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
                 iterations=int(sol.iterations[b]),
                 residual_evaluations=int(sol.residual_evaluations[b]),
                 x_start=tuple(x_starts[b]),
-                range_warnings=_range_warnings(design, state, pq),
+                range_warnings=_range_warnings(design, state, pq, inputs),
             )
         )
     return results
 
 
-def _range_warnings(design: Design, state: str, pq: PowerQuality) -> tuple[RangeWarning, ...]:
+def _range_warnings(design: Design, state: str, pq: PowerQuality,
+                    inputs: tuple[RangeWarning, ...] | None = None) -> tuple[RangeWarning, ...]:
     """What of a case lies outside the range of small mains gadgets: the design's inputs
-    and the state's line current and input power."""
-    return design_warnings(design) + result_warnings(design.name, state, pq.i_rms_a, pq.p_w)
+    (``inputs`` when already known) and the state's line current and input power."""
+    if inputs is None:
+        inputs = design_warnings(design)
+    return inputs + result_warnings(design.name, state, pq.i_rms_a, pq.p_w)
 
 
 
