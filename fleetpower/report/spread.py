@@ -15,6 +15,7 @@ from rich.markup import escape
 
 from ..spread.study import SpreadResult
 from .format import fmt, humanize, key_label_unit
+from .terminal import numbered_notes
 
 #: per state: quantities whose largest value is the bad end (the rest: the smallest)
 _WORST_HIGH = ("p_w", "s_va", "i_rms_a", "thd_i_pct")
@@ -162,12 +163,7 @@ def render_spread(report: dict, console) -> None:
         t.add_row(r["key"], _value_text(r["key"], r["nominal"]), r["distribution"], band,
                   f"[{sources.index(r['source']) + 1}]")
     console.print(t)
-    notes = Table(box=None, show_header=False, pad_edge=False)
-    notes.add_column(justify="right", no_wrap=True)
-    notes.add_column(overflow="fold")
-    for k, text in enumerate(sources, 1):
-        notes.add_row(f"[{k}]", text)
-    console.print(notes)
+    console.print(numbered_notes(sources))
     t = table(f"Percentiles ({report['conditions']})")
     for col in ("group", "quantity", "P5", "P50", "P95", "max"):
         t.add_column(col, justify="right" if col[0] in "Pm" else "left", overflow="fold")

@@ -144,6 +144,17 @@ def _stress_table(stresses: list[dict]) -> Table:
     return t
 
 
+def numbered_notes(notes: list[str]) -> Table:
+    """Notes printed whole under a table that cites them as ``[n]``: "[1]  text", with the
+    text's wrapped lines hanging under its first word."""
+    grid = Table(box=None, show_header=False, pad_edge=False)
+    grid.add_column(justify="right", no_wrap=True)
+    grid.add_column(overflow="fold")
+    for k, note in enumerate(notes, 1):
+        grid.add_row(f"[{k}]", note)
+    return grid
+
+
 #: narrower than this, a limit row's clause or reason moves out of the table into a numbered
 #: note under it (a column of 14 characters breaks words such as "line-to-neutral")
 NOTES_BELOW_WIDTH = 110
@@ -190,12 +201,7 @@ def _compliance_tables(rows: list[dict], width: int = 120) -> list:
                       style="dim" if scope != "in scope" else None)
         out.append(t)
         if notes:
-            grid = Table(box=None, show_header=False, pad_edge=False)
-            grid.add_column(justify="right", no_wrap=True)
-            grid.add_column(overflow="fold")
-            for k, note in enumerate(notes, 1):
-                grid.add_row(f"[{k}]", note)
-            out.append(grid)
+            out.append(numbered_notes(notes))
     out.append(Text("Margins against the tables in data/limits/ (mostly from memory): an "
                     "engineering aid, not a certification; the standards' texts, local "
                     "codes and licensed practice govern.", style="dim"))
