@@ -47,18 +47,8 @@ from fleetpower.spread.study import (  # noqa: E402
     SPREAD_SAMPLES_PER_CYCLE,
 )
 
-CASES = [
-    ("dropper-half-wave", "active"),
-    ("dropper-half-wave", "idle"),
-    ("dropper-bridge", "active"),
-    ("dropper-bridge", "idle"),
-    ("resistive-half-wave", "active"),
-    ("smps-bridge", "active"),
-    ("smps-bridge", "idle"),
-    ("transformer-bridge", "active"),
-    ("transformer-bridge", "idle"),
-    ("transformer-half-wave", "active"),
-]
+#: every reference circuit and state (tests/reference_circuits.py)
+CASES = rc.REFERENCE_CASES
 #: (samples per cycle, coarse start steps or 0, Richardson partner or 0): the engine's
 #: settings, plus Richardson extrapolation of the figures over two plain resolutions
 SETTINGS = [

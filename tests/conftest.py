@@ -127,10 +127,15 @@ def write_design(
 # in-process CLI runs
 # ----------------------------------------------------------------------------------------
 def run_captured(argv: list[str]) -> tuple[int, str, str]:
-    """Run ``fleetpower.cli.main(argv)`` in-process; return (status, stdout, stderr)."""
+    """Run ``fleetpower.cli.main(argv)`` in-process; return (status, stdout, stderr).
+
+    argparse's own exits (``--help``, ``--version``, usage errors) give their status."""
     out, err = io.StringIO(), io.StringIO()
     with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
-        rc = main([str(a) for a in argv])
+        try:
+            rc = main([str(a) for a in argv])
+        except SystemExit as exc:
+            rc = exc.code
     return rc, out.getvalue(), err.getvalue()
 
 

@@ -769,6 +769,24 @@ def _transformer_table(key: str) -> dict:
 TRANSFORMER_KEYS = ("transformer-bridge", "transformer-half-wave")
 
 
+#: every (circuit, state) the engine is checked against here: the reference tests
+#: (tests/test_engine_reference.py) and the accuracy-per-cost measurement
+#: (benchmarks/bench_accuracy.py) use this one list, so the accuracy setting is chosen on
+#: exactly the circuits the tests hold the engine to
+REFERENCE_CASES = [
+    ("dropper-half-wave", "active"),
+    ("dropper-half-wave", "idle"),
+    ("dropper-bridge", "active"),
+    ("dropper-bridge", "idle"),
+    ("resistive-half-wave", "active"),
+    ("smps-bridge", "active"),
+    ("smps-bridge", "idle"),
+    ("transformer-bridge", "active"),
+    ("transformer-bridge", "idle"),
+    ("transformer-half-wave", "active"),
+]
+
+
 def design(key: str):
     """A validated :class:`fleetpower.io.design_file.Design` of :data:`DESIGN_TABLES` (or of
     :data:`TRANSFORMER_KEYS`, built from the bundled transformer example)."""

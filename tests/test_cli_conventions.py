@@ -9,26 +9,17 @@ no source).
 from __future__ import annotations
 
 import argparse
-import contextlib
-import io
 import json
 
 import pytest
-from conftest import example_path
+from conftest import example_path, run_captured
 
 from fleetpower import __version__
 from fleetpower.cli import build_parser, failed_checks, main
 
 
 def _run(*argv) -> tuple[int, str, str]:
-    out, err = io.StringIO(), io.StringIO()
-    code = 0
-    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
-        try:
-            code = main([str(a) for a in argv])
-        except SystemExit as exc:  # argparse: --help, --version, usage errors
-            code = exc.code
-    return code, out.getvalue(), err.getvalue()
+    return run_captured(list(argv))
 
 
 def _verbs() -> dict[str, argparse.ArgumentParser]:
@@ -164,7 +155,6 @@ def test_spread_strict_counts_any_failing_unit(capsys):
     cannot hold its 18 mA active load: a half-wave charge pump delivers at most
     f C (2 Vpk - Vz - Vf) = 50 Hz x 470 nF x (2 x 325 - 10 - 0.7) V = 15.0 mA (closed form,
     DEVELOPERS "Ageing"), so every unit fails regulation. The isolated flyback fails none."""
-    from fleetpower.cli import main
 
     args = ["--samples", "8", "--no-limits", "--strict"]
     assert main(["spread", "examples/desk-sensor-dropper-lean.toml", *args]) == 1

@@ -22,18 +22,8 @@ from fleetpower.engine.devices import diode_saturation_current_a
 from fleetpower.io.design_file import design_from_dict
 from fleetpower.topologies.mains_transformer import transformer_model
 
-CASES = [
-    ("dropper-half-wave", "active"),
-    ("dropper-half-wave", "idle"),
-    ("dropper-bridge", "active"),
-    ("dropper-bridge", "idle"),
-    ("resistive-half-wave", "active"),
-    ("smps-bridge", "active"),
-    ("smps-bridge", "idle"),
-    ("transformer-bridge", "active"),
-    ("transformer-bridge", "idle"),
-    ("transformer-half-wave", "active"),
-]
+#: every reference circuit and state (tests/reference_circuits.py)
+CASES = rc.REFERENCE_CASES
 IDS = [f"{k}/{s}" for k, s in CASES]
 
 

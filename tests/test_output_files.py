@@ -11,8 +11,6 @@ link(2) fails with EEXIST when the new name exists (POSIX.1-2017, link()). Exit 
 
 from __future__ import annotations
 
-import contextlib
-import io
 import os
 import signal
 import stat
@@ -23,10 +21,10 @@ import time
 from pathlib import Path
 
 import pytest
-from conftest import example_path
+from conftest import example_path, run_captured
 
 from fleetpower import cli
-from fleetpower.cli import build_parser, main
+from fleetpower.cli import build_parser
 from fleetpower.errors import InputError
 from fleetpower.io import files
 from fleetpower.io.files import TMP_INFIX, check_writable, write_atomic
@@ -35,14 +33,7 @@ REPO = Path(__file__).resolve().parent.parent
 
 
 def _run(*argv) -> tuple[int, str, str]:
-    out, err = io.StringIO(), io.StringIO()
-    code = 0
-    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
-        try:
-            code = main([str(a) for a in argv])
-        except SystemExit as exc:  # argparse: usage errors
-            code = exc.code
-    return code, out.getvalue(), err.getvalue()
+    return run_captured(list(argv))
 
 
 def _leftovers(folder: Path) -> list[str]:
