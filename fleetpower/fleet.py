@@ -39,6 +39,27 @@ DAYS_PER_YEAR = 365.0
 MONTHS_PER_YEAR = 12
 
 
+#: figures of cases (or states) within this relative distance of the largest are a tie,
+#: and the first of them wins: figures from the engine carry rounding of ~1e-12, and a
+#: named worst case, peak hour or heaviest state must not flip on rounding
+TIE_RTOL = 1e-9
+
+
+def first_largest(values, axis=None):
+    """Index of the largest of ``values`` (along ``axis``; flat when None), the first of
+    those within :data:`TIE_RTOL` of it on a tie: ``np.argmax`` made stable to rounding."""
+    a = np.asarray(values, dtype=float)
+    top = np.max(a, axis=axis, keepdims=axis is not None)
+    with np.errstate(invalid="ignore"):  # -inf entries (impossible states) stay out
+        near = a >= top - TIE_RTOL * np.abs(top)
+    return np.argmax(near, axis=axis)
+
+
+def first_smallest(values, axis=None):
+    """:func:`first_largest` of the smallest."""
+    return first_largest(-np.asarray(values, dtype=float), axis=axis)
+
+
 # ----------------------------------------------------------------------------------
 # unit catalogue: every distinct (design, state) simulated once
 # ----------------------------------------------------------------------------------
@@ -291,8 +312,8 @@ def _coincident_occupancy_all(occ: np.ndarray, share: np.ndarray, values) -> np.
     """
     vals = np.asarray(values, dtype=float)[None, :]
     possible = occ[:, 0, :] > 0
-    top = np.where(possible, vals, -np.inf).argmax(axis=1)
-    low = np.where(possible, vals, np.inf).argmin(axis=1)
+    top = first_largest(np.where(possible, vals, -np.inf), axis=1)
+    low = first_smallest(np.where(possible, vals, np.inf), axis=1)
     rows = np.arange(len(occ))
     out = np.zeros(possible.shape)
     out[rows, top] += share
@@ -418,7 +439,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     p_cases = w_all @ p_k  # (cases, n_p)
     q_cases = w_all @ q_k
     metric = s_cp.sum(axis=1) if tariff.demand_basis == "kVA" else p_cases.sum(axis=1)
-    peak = int(np.argmax(metric))
+    peak = int(first_largest(metric))
     peak_label = peak % HOURS
     coincident = peak >= HOURS
     # the neutral of every case, from the phasors in the common frame
@@ -448,7 +469,7 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
                 f"phase {p}: the K-factor sums orders 1-{kf.h_max}; the orders above carry "
                 f"{kf.above_energy_pct:.2g} % of the squared current and would raise K by "
                 f"{kf.above_k_pct:.0f} % (to order {kf.h_available})")
-        c_max = int(np.argmax(i_rms_cp[:, k]))
+        c_max = int(first_largest(i_rms_cp[:, k]))
         figs.append(PhaseFigures(
             phase=p, p_w=float(p_cases[peak, k]), q1_var=float(q_cases[peak, k]),
             s_va=float(s_cp[peak, k]), i_rms_a=float(i_rms_cp[peak, k]), i1_a=i1,
@@ -482,10 +503,10 @@ def evaluate_fleet(spec: FleetSpec, catalogue: dict | None = None, progress=None
     co2 = float(E.co2_kg(e_year, tariff.co2_kg_per_kwh))
 
     # largest currents over every hour and peak case: phase conductors and neutral
-    c_w, k_w = np.unravel_index(int(np.argmax(i_rms_cp)), i_rms_cp.shape)
+    c_w, k_w = np.unravel_index(int(first_largest(i_rms_cp)), i_rms_cp.shape)
     worst = {"phase": phases[k_w], "i_rms_a": float(i_rms_cp[c_w, k_w]),
              "case": case_labels[c_w]}
-    c_n = int(np.argmax(neutral_rms_c))
+    c_n = int(first_largest(neutral_rms_c))
     neutral_max = {"i_rms_a": float(neutral_rms_c[c_n]), "case": case_labels[c_n]}
 
     # IEEE 519 at the PCC, on every phase conductor, at each phase's worst case
@@ -568,8 +589,8 @@ def _coincident_occupancy(g, values) -> np.ndarray:
     possible = np.flatnonzero(g.occupancy[0] > 0)
     vals = np.asarray(values, dtype=float)[possible]
     occ = np.zeros(len(g.states))
-    occ[possible[int(np.argmax(vals))]] += g.coincident_share
-    occ[possible[int(np.argmin(vals))]] += 1.0 - g.coincident_share
+    occ[possible[int(first_largest(vals))]] += g.coincident_share
+    occ[possible[int(first_smallest(vals))]] += 1.0 - g.coincident_share
     return occ
 
 
@@ -581,8 +602,8 @@ def _ieee519_every_phase(mag_cph, tdd_cp, phases, case_labels, i_l, isc) -> list
     for k, p in enumerate(phases):
         env = np.zeros(H_MAX + 1)
         env[: mag_cph.shape[-1]] = mag_cph[:, k].max(axis=0)
-        c_h = mag_cph[:, k].argmax(axis=0)
-        c_tdd = int(np.argmax(tdd_cp[:, k]))
+        c_h = first_largest(mag_cph[:, k], axis=0)
+        c_tdd = int(first_largest(tdd_cp[:, k]))
         by_h = [asdict(r) for r in L.evaluate_ieee519(env, i_l, isc)]
         at_tdd = np.zeros(H_MAX + 1)
         at_tdd[: mag_cph.shape[-1]] = mag_cph[c_tdd, k]

@@ -538,3 +538,21 @@ def test_bundled_example_fleet_evaluates_on_its_site_mains():
     res = evaluate_fleet(spec)
     assert res.units == 1800 + 300 and res.p_kw > 0 and res.q1_kvar < 0
     assert not any("specified for" in w for w in res.warnings)
+
+
+def test_worst_case_ties_go_to_the_first_case_not_to_rounding():
+    # A named worst case, peak hour or heaviest state is the largest figure; figures that
+    # agree to rounding (1e-12 from the engine) are a tie and the first case wins, so a
+    # label cannot flip when an unrelated change moves the last digits (common practice,
+    # no source). A real difference (1e-6) still decides.
+    from fleetpower.fleet import TIE_RTOL, first_largest, first_smallest
+
+    assert first_largest([1.0, 1.0 + 1e-13, 0.5]) == 0
+    assert first_largest([1.0 + 1e-13, 1.0, 0.5]) == 0
+    assert first_largest([1.0, 1.0 + 1e-6, 0.5]) == 1
+    assert first_smallest([2.0, 1.0, 1.0 - 1e-13]) == 1
+    assert first_largest([-np.inf, 3.0, 3.0]) == 1
+    assert first_largest([-np.inf, -np.inf]) == 0
+    grid = np.array([[1.0, 5.0], [1.0 + 10 * TIE_RTOL, 5.0 * (1 + TIE_RTOL / 10)]])
+    assert first_largest(grid, axis=0).tolist() == [1, 0]
+    assert np.unravel_index(int(first_largest(grid)), grid.shape) == (0, 1)
