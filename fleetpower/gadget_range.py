@@ -233,9 +233,36 @@ def _warn(key: str, row_key: str, value: float | None, design: str,
           state: str | None = None) -> list[RangeWarning]:
     if value is None or not isinstance(value, (int, float)):
         return []
-    return [RangeWarning(key, row.quantity, float(value), row.low_si, row.high_si, row.unit,
+    value = float(value)
+    rows = rows_for(row_key, "warn")
+    for row in rows:
+        if not row.low_si <= value <= row.high_si:
+            break
+    else:  # inside every row: the usual case, asked per solved case
+        return []
+    return [RangeWarning(key, row.quantity, value, row.low_si, row.high_si, row.unit,
                          row.reason, row.provenance, design, state)
-            for row in rows_for(row_key, "warn") if not row.contains(float(value))]
+            for row in rows if not row.contains(value)]
+
+
+#: per (model class, field): how the field is read: "stored" in the instance's
+#: ``__dict__`` (a pydantic field), an "attribute" of the class (a property), or "absent"
+_HOW: dict[tuple[type, str], str] = {}
+
+
+def _field_value(holder, field: str):
+    """``getattr(holder, field, None)``, without pydantic's slow path for the fields a
+    part model does not have (asked of every design in a spread)."""
+    cls = type(holder)
+    how = _HOW.get((cls, field))
+    if how is None:
+        fields = getattr(cls, "model_fields", None)  # None: not a pydantic model
+        how = _HOW[(cls, field)] = (
+            "attribute" if fields is None or hasattr(cls, field)
+            else "stored" if field in fields else "absent")
+    if how == "stored":
+        return holder.__dict__.get(field)
+    return getattr(holder, field, None) if how == "attribute" else None
 
 
 def design_warnings(design) -> tuple[RangeWarning, ...]:
@@ -248,7 +275,7 @@ def design_warnings(design) -> tuple[RangeWarning, ...]:
     name = design.name
     holders = {"mains": design.mains, "parts": design.parts}
     for row_key, table, field in _input_rows():
-        out += _warn(row_key, row_key, getattr(holders[table], field, None), name)
+        out += _warn(row_key, row_key, _field_value(holders[table], field), name)
     for state, load in design.states.items():
         if not (isinstance(load, tuple) and len(load) == 2):
             continue  # a measured gadget's state is a file, not a load

@@ -274,3 +274,26 @@ def test_readme_quotes_the_table_as_shipped():
             quoted.add((cells[0].strip("`"), cells[1], text, cells[3], cells[4]))
     shipped = {(r.key, r.quantity, r.range_text, r.outside, r.provenance) for r in G.ranges()}
     assert quoted == shipped
+
+
+def test_design_warnings_read_models_and_duck_typed_holders_alike():
+    # design_warnings is duck-typed (its docstring): holders that are not pydantic models
+    # are read by attribute; a part model is read from its fields (a faster path); both
+    # give the same warnings. Range ends from data/gadget_ranges.csv (dropper capacitance
+    # 10 nF to 10 uF).
+    from types import SimpleNamespace
+
+    from fleetpower.gadget_range import design_warnings
+    from fleetpower.io.design_file import load_design
+
+    design = load_design(EXAMPLES / "nightlight-dropper.toml")
+    odd = design.model_copy(update={"parts": design.parts.model_copy(
+        update={"series_capacitance": 22e-6})})
+    keys = [w.key for w in design_warnings(odd)]
+    assert keys == ["parts.series_capacitance"]
+    duck = SimpleNamespace(name=odd.name, mains=SimpleNamespace(**dict(odd.mains)),
+                           parts=SimpleNamespace(**dict(odd.parts)), states=odd.states,
+                           load_current_a=odd.load_current_a, load_power_w=odd.load_power_w)
+    assert [w.to_dict() for w in design_warnings(duck)] == \
+        [w.to_dict() for w in design_warnings(odd)]
+    assert design_warnings(design) == ()

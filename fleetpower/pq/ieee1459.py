@@ -19,6 +19,7 @@ system totals). May import the rest of ``pq`` only; nothing else of fleetpower.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
@@ -213,24 +214,23 @@ def power_quality_rows(v_v: np.ndarray, i_a: np.ndarray) -> list[PowerQuality]:
     v1 = np.abs(vh[:, 1])
     i1 = np.abs(ih[:, 1])
     s1c = vh[:, 1] * np.conj(ih[:, 1])
-    thd_i = thd_pct(ih)
-    thd_v = thd_pct(vh)
+    # per row in Python floats (lists: numpy's scalars cost a call each); math.sqrt is
+    # numpy's sqrt of a float to the bit (both correctly rounded, IEEE 754)
+    columns = zip(v_rms.tolist(), i_rms.tolist(), i_peak.tolist(), p.tolist(), v1.tolist(),
+                  i1.tolist(), s1c.real.tolist(), s1c.imag.tolist(), thd_pct(ih).tolist(),
+                  thd_pct(vh).tolist(), ih[:, 0].real.tolist(), ih, vh, strict=True)
     out = []
-    for b in range(v.shape[0]):
-        vr, ir, pk, pw = float(v_rms[b]), float(i_rms[b]), float(i_peak[b]), float(p[b])
+    for vr, ir, pk, pw, v1b, i1b, p1, q1, thd_i, thd_v, i_dc, ih_b, vh_b in columns:
         s = vr * ir
-        v1b, i1b = float(v1[b]), float(i1[b])
-        p1, q1 = float(s1c[b].real), float(s1c[b].imag)
         s1 = v1b * i1b
-        i_h_rms = float(np.sqrt(max(ir * ir - i1b * i1b, 0.0)))
+        i_h_rms = math.sqrt(max(ir * ir - i1b * i1b, 0.0))
         out.append(PowerQuality(
             v_rms_v=vr, i_rms_a=ir, i_peak_a=pk, crest_factor=pk / ir if ir > 0 else 0.0,
-            p_w=pw, s_va=s, n_var=float(np.sqrt(max(s * s - pw * pw, 0.0))),
+            p_w=pw, s_va=s, n_var=math.sqrt(max(s * s - pw * pw, 0.0)),
             v1_rms_v=v1b, i1_rms_a=i1b, p1_w=p1, q1_var=q1, s1_va=s1,
             d_i_var=v1b * i_h_rms, pf=pw / s if s > 0 else 1.0,
-            dpf=p1 / s1 if s1 > 0 else 1.0, thd_i_pct=float(thd_i[b]),
-            thd_v_pct=float(thd_v[b]), i_dc_a=float(ih[b, 0].real), i_h_a=ih[b],
-            v_h_v=vh[b]))
+            dpf=p1 / s1 if s1 > 0 else 1.0, thd_i_pct=thd_i,
+            thd_v_pct=thd_v, i_dc_a=i_dc, i_h_a=ih_b, v_h_v=vh_b))
     return out
 
 
