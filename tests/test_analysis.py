@@ -155,3 +155,24 @@ def test_parseval_for_band_limited_signals(dc, amps, phases):
     mags = np.abs(q.i_h_a[1 : len(amps) + 1])
     assert np.allclose(mags, np.array(amps) / math.sqrt(2), rtol=1e-9, atol=1e-9)
     assert q.i_dc_a == pytest.approx(dc, abs=1e-9)
+
+
+def test_an_order_at_rounding_level_has_no_phase():
+    # A square wave has only odd orders, |I_h| = I_1 / h (closed-form Fourier series); its
+    # even orders come out of the FFT at rounding level (~1e-16 of I1), whose angle is
+    # arbitrary: the table gives those no phase (NaN; null in --json) and keeps the odd
+    # orders' phases, down to the floor PHASE_FLOOR_OF_I1 (common practice, no source).
+    n = 2048
+    t = np.arange(n) / n
+    i = np.where(t < 0.5, 1.0, -1.0)
+    _, ih = spec.phasors_vs_voltage(np.sin(2 * np.pi * t), i)
+    cols = spec.harmonic_columns(ih)
+    odd = cols["h"] % 2 == 1
+    assert np.all(np.isfinite(cols["phase_deg"][odd]))
+    assert np.all(np.isnan(cols["phase_deg"][~odd]))
+    assert np.all(cols["i_rms_a"][~odd] < 1e-12 * cols["i_rms_a"][0])
+    # just above the floor an order keeps its phase; nothing at all: no phase anywhere
+    ih2 = np.zeros(51, complex)
+    ih2[1], ih2[3] = 1.0, 2e-9j
+    assert spec.harmonic_columns(ih2)["phase_deg"][2] == pytest.approx(90.0)
+    assert np.all(np.isnan(spec.harmonic_columns(np.zeros(51, complex))["phase_deg"]))

@@ -67,21 +67,31 @@ def phasors_vs_voltage(v_v: np.ndarray, i_a: np.ndarray) -> tuple[np.ndarray, np
     return vh * rot, ih * rot
 
 
+#: an order whose magnitude is below this fraction of the fundamental has no phase: it is
+#: rounding (a simulated waveform's even orders come out near 1e-14 of I1, their angle
+#: anything), not a current; far below any limit or report figure (common practice, no
+#: source)
+PHASE_FLOOR_OF_I1 = 1e-9
+
+
 def harmonic_columns(i_h_a: np.ndarray) -> dict[str, np.ndarray]:
     """The columns of :func:`harmonic_table` as arrays (h = 1..H_MAX), without pandas.
 
-    Keys ``h`` [-], ``i_rms_a`` [A], ``pct_of_fundamental`` [%] and ``phase_deg`` [deg].
+    Keys ``h`` [-], ``i_rms_a`` [A], ``pct_of_fundamental`` [%] and ``phase_deg`` [deg];
+    the phase is NaN (undefined) for an order below :data:`PHASE_FLOOR_OF_I1` of the
+    fundamental (every order when there is no fundamental).
     """
     i_h_a = np.asarray(i_h_a)
     h = np.arange(1, min(H_MAX, i_h_a.shape[-1] - 1) + 1)
     mag = np.abs(i_h_a[h])
     i1 = mag[0]
     pct = 100.0 * mag / i1 if i1 > 0 else np.zeros_like(mag)
+    phase = np.degrees(np.angle(i_h_a[h]))
     return {
         "h": h,
         "i_rms_a": mag,
         "pct_of_fundamental": pct,
-        "phase_deg": np.degrees(np.angle(i_h_a[h])),
+        "phase_deg": np.where(mag > PHASE_FLOOR_OF_I1 * i1, phase, np.nan),
     }
 
 

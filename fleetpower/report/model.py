@@ -65,7 +65,9 @@ def state_to_dict(r: StateResult) -> dict:
         "thd_i_pct": q.thd_i_pct,
         "i_dc_mains_a": q.i_dc_a,
         "harmonics": [
-            {"h": int(h), "i_rms_a": i_a, "pct_of_fundamental": pct, "phase_deg": deg}
+            {"h": int(h), "i_rms_a": i_a, "pct_of_fundamental": pct,
+             # an order at rounding level has no phase (pq.spectrum.PHASE_FLOOR_OF_I1)
+             "phase_deg": None if math.isnan(deg) else deg}
             for h, i_a, pct, deg in zip(table["h"], table["i_rms_a"],
                                         table["pct_of_fundamental"], table["phase_deg"],
                                         strict=True)

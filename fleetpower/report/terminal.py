@@ -79,12 +79,13 @@ def _harmonic_table(state: dict, width: int = 120) -> Table:
             if k < len(odd):
                 h = odd[k]
                 cells += [str(h["h"]), fmt(h["i_rms_a"] * 1e3, 3), fmt(h["pct_of_fundamental"], 3),
-                          f"{h['phase_deg']:.0f}"]
+                          "-" if h["phase_deg"] is None else f"{h['phase_deg']:.0f}"]
             else:
                 cells += ["", "", "", ""]
         t.add_row(*cells)
-    t.caption = ("rms current, % of I1, phase against V1 in degrees; even orders below "
-                 "0.5 % of I1 not shown; all 50 orders are in --json")
+    t.caption = ("rms current, % of I1, phase against V1 in degrees ('-': too small to "
+                 "have one); even orders below 0.5 % of I1 not shown; all 50 orders are in "
+                 "--json")
     t.caption_justify = "left"
     return t
 
