@@ -71,7 +71,7 @@ def main() -> int:
         designs = [study.sample_design(design, plan.spreads, r) for r in values]
         t0 = time.perf_counter()
         study._solve_units(designs, plan.warm, plan.samples_per_cycle, plan.periodic_rtol,
-                           plan.starts(values))
+                           plan.starts(values), plan.warm_cycles)
         solve_s += time.perf_counter() - t0
     per_batched = solve_s / n
     cpu_batched = (time.process_time() - cpu0) / n  # all threads (sample building included)

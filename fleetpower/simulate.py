@@ -127,6 +127,10 @@ class StateResult:
     #: engine unknowns at the start of the settled cycle (v_c1 [V], v_o [V], v_a [V],
     #: i_s [A]): a warm start for variants of this case (spread samples)
     x_start: tuple[float, ...] = ()
+    #: the engine unknowns at every sample of the settled cycle, shape (n, 4) (None: not
+    #: simulated): a guide for the time steps of variants of this case (spread samples;
+    #: ``guides`` of :func:`run`)
+    x_cycle: np.ndarray | None = None
     #: where the figures come from when not simulated (file, window, scaling model)
     basis: str | None = None
     #: quality flags of the source data (shown as warnings)
@@ -249,6 +253,7 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
                 iterations=iterations[b],
                 residual_evaluations=evaluations[b],
                 x_start=tuple(x_starts[b]),
+                x_cycle=sol.states[b],
                 range_warnings=_range_warnings(design, state, pq, inputs),
             )
         )
@@ -338,13 +343,15 @@ class Batch:
     coarse_start: int | None = None
     #: periodicity tolerance of the engine (None: its default, ``PERIODIC_RTOL``)
     periodic_rtol: float | None = None
+    #: per row a near solution's cycle of unknowns (n, 4), NaN rows for none (None: none)
+    guides: np.ndarray | None = None
 
 
 def solve_batch(batch: Batch) -> SteadyState:
     """Solve one batch of engine rows (the function executors run)."""
     extra = {} if batch.periodic_rtol is None else {"periodic_rtol": batch.periodic_rtol}
     return solve_periodic(batch.params, batch.x0, batch.samples_per_cycle, batch.labels,
-                          coarse_start=batch.coarse_start, **extra)
+                          coarse_start=batch.coarse_start, guides=batch.guides, **extra)
 
 
 def circuit_rows(design: Design, state: str, mains_factor: float = 1.0,
@@ -370,6 +377,7 @@ def run(
     initial: list[tuple[float, ...] | None] | None = None,
     coarse_start: int | None = None,
     periodic_rtol: float | None = None,
+    guides: list[np.ndarray | None] | None = None,
 ) -> list[StateResult]:
     """Solve cases (of any number of designs) in one batch; results in the order of cases.
 
@@ -384,7 +392,11 @@ def run(
     steps of the engine's coarse first solve (None: the engine's default; 0: none); it
     changes the cost, not the result (beyond the periodicity tolerance), so it is not part
     of the cache key. ``periodic_rtol`` (None: the engine's default) is the other half of
-    an accuracy setting (the periodicity tolerance); it is part of the key.
+    an accuracy setting (the periodicity tolerance); it is part of the key. ``guides``
+    gives, per case, a near solution's :attr:`StateResult.x_cycle` at the same
+    ``samples_per_cycle`` (or None), along which the engine predicts its time steps where
+    a device switches: like ``initial``, it changes the cost, not the result beyond the
+    tolerances.
     """
     # without a cache, duplicates are found by object (hashing each design's content costs
     # ~40 us a case, a sixth of a spread sample's solve at its accuracy setting)
@@ -416,10 +428,16 @@ def run(
                         for k, x in zip(first, x0s, strict=True))
         labels = [f"{cases[k].design.name} / {cases[k].state} at "
                   f"{cases[k].mains_factor:.2f}x mains" for k in first]
+        guide_rows = None
+        if guides is not None and any(guides[k] is not None for k in first):
+            guide_rows = np.full((len(first), samples_per_cycle, layout.N_STATES), np.nan)
+            for r, k in enumerate(first):
+                if guides[k] is not None:
+                    guide_rows[r] = guides[k]
         try:
             (sol,) = executor(solve_batch, [Batch(np.array(rows), np.array(x0s),
                                                   samples_per_cycle, labels, coarse_start,
-                                                  periodic_rtol)])
+                                                  periodic_rtol, guide_rows)])
         except SolverError as exc:
             raise _explained(exc, [cases[k].design for k in first]) from None
         solved = _state_results([cases[k] for k in first], sol)

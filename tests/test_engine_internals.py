@@ -218,3 +218,78 @@ def test_bundled_files_are_found():
 
     assert (data_dir() / "limits" / "iec61000-3-2.csv").is_file()
     assert (examples_dir() / "harbour-office.toml").is_file()
+
+
+@pytest.mark.parametrize("v", [-40.0, -5.0, -0.7, -0.05, -1e-6, 0.0, 1e-6, 0.03, 0.5, 0.7,
+                               0.95, 1.2, 3.0, 1e3])
+def test_diode_current_and_conductance_share_one_exponential_and_stay_exact(v):
+    # Shockley: i = Is expm1(v / nVt), g = Is exp(v / nVt) / nVt; above I_GUARD_A the
+    # tangent continuation i = Is (e_m (1 + u - u_m) - 1), g = Is e_m / nVt (Nagel 1975,
+    # as the module states). diode_iv takes e - 1 for expm1 away from zero: within a few
+    # ulp of the closed forms computed here with numpy's expm1 and exp.
+    is_a = dv.diode_saturation_current_a(0.7, 0.020)
+    nvt = dv.N_RECTIFIER * dv.VT_V
+    u = v / nvt
+    u_max = math.log(dv.I_GUARD_A / is_a)
+    if u > u_max:
+        i_ref = is_a * (math.exp(u_max) * (1.0 + u - u_max) - 1.0)
+        g_ref = is_a * math.exp(u_max) / nvt
+    else:
+        i_ref, g_ref = is_a * np.expm1(u), is_a * np.exp(u) / nvt
+    i, g = dv.diode_iv(v, is_a, nvt)
+    assert i == pytest.approx(i_ref, rel=4e-16, abs=1e-300)
+    assert g == pytest.approx(g_ref, rel=1e-12, abs=1e-300)
+
+
+@pytest.mark.parametrize("u", [-800.0, -30.0, -1.0, 0.0, 1e-9, 2.5, 40.0, 800.0])
+def test_softplus_and_its_slope_from_one_exponential(u):
+    # softplus ln(1 + e^u) and its derivative, the logistic 1 / (1 + e^-u), in closed form
+    # (numpy's logaddexp and expit-by-hand), overflow-free at both ends
+    sp, sg = dv.softplus_sigmoid(u)
+    assert sp == pytest.approx(np.logaddexp(0.0, u), rel=1e-15, abs=1e-300)
+    ref = 1.0 / (1.0 + math.exp(-u)) if u > -700 else 0.0
+    assert sg == pytest.approx(ref, rel=1e-15, abs=1e-300)
+
+
+def _spread_like_batch(n_samples=24, seed=7):
+    """Engine rows of a dropper's samples (capacitance, zener and mains each within
+    +-10 %) and the nominal's settled cycle (a warm start and guide), at 256 steps."""
+    design = load_design(examples_dir() / "desk-sensor-dropper-lean.toml")
+    p0, x0 = circuit_rows(design, "active")
+    nominal = solve_periodic(p0[None], x0[None], 256, coarse_start=0, periodic_rtol=1e-6)
+    rng = np.random.default_rng(seed)
+    rows = np.repeat(p0[None], n_samples, axis=0)
+    for name in ("c1_f", "v_pk_v"):
+        rows[:, layout.param_index(name)] *= rng.uniform(0.9, 1.1, n_samples)
+    starts = np.repeat(nominal.states[:, 0], n_samples, axis=0)
+    return rows, starts, np.repeat(nominal.states, n_samples, axis=0)
+
+
+def test_a_guide_changes_the_cost_not_the_answer():
+    # The fixed point of the one-cycle map does not depend on where each time step's
+    # Newton iteration starts (the predictor): with the nominal's cycle as the guide the
+    # same steady states result, to the periodicity tolerance (1e-6 of the peak voltage,
+    # the spread's), for fewer residual evaluations (switchings cost 2 Newton iterations
+    # instead of up to 13; measured in benchmarks/bench_spread.py)
+    rows, starts, guides = _spread_like_batch()
+    kw = dict(samples_per_cycle=256, coarse_start=0, periodic_rtol=1e-6)
+    plain = solve_periodic(rows, starts, **kw)
+    guided = solve_periodic(rows, starts, guides=guides, **kw)
+    assert plain.converged.all() and guided.converged.all()
+    i_plain, i_guided = plain.probe("i_line_a"), guided.probe("i_line_a")
+    peak = np.abs(i_plain).max(axis=1, keepdims=True)
+    # ten times the periodicity tolerance, as the end points of two solves each within it
+    # of the fixed point (measured: 2.3e-7 of the peak, P within 1.2e-9)
+    assert np.all(np.abs(i_guided - i_plain) < 1e-5 * peak)
+    p_plain = (plain.probe("v_terminal_v") * i_plain).mean(axis=1)
+    p_guided = (guided.probe("v_terminal_v") * i_guided).mean(axis=1)
+    np.testing.assert_allclose(p_guided, p_plain, rtol=1e-6)
+    assert guided.residual_evaluations.sum() < 0.9 * plain.residual_evaluations.sum()
+    # a row of NaN is no guide: that row is solved exactly as without one
+    none = guides.copy()
+    none[0] = np.nan
+    partly = solve_periodic(rows, starts, guides=none, **kw)
+    np.testing.assert_array_equal(partly.probes[0], plain.probes[0])
+    np.testing.assert_array_equal(partly.probes[1:], guided.probes[1:])
+    with pytest.raises(ValueError, match="guides"):
+        solve_periodic(rows, starts, guides=guides[:, :128], **kw)

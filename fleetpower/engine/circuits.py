@@ -73,14 +73,7 @@ import math
 import numpy as np
 from numba import njit
 
-from .devices import (
-    diode_conductance_s,
-    diode_current_a,
-    sigmoid,
-    softplus,
-    zener_breakdown_conductance_s,
-    zener_breakdown_current_a,
-)
+from .devices import diode_iv, softplus_sigmoid, zener_breakdown_iv
 from .layout import (
     CAPACITIVE_DROPPER,
     HALF_WAVE,
@@ -163,14 +156,32 @@ def mass_vector(p, m):
 
 
 @njit(cache=True, inline="always")
-def _load_current_a(vo, p):
-    """Current drawn from the reservoir by the regulator or the converter [A]."""
+def _load_iv(vo, p):
+    """Current [A] drawn from the reservoir by the regulator or the converter, and its
+    conductance d i / d v_o [S]."""
     if int(p[P_TOPO]) == RECTIFIER_SMPS:
         uvlo = p[P_UVLO]
         width = 0.02 * uvlo + 0.5
-        gate = 0.5 * (1.0 + math.tanh((vo - uvlo) / width))
-        return p[P_PCONV] * gate * vo / (vo * vo + 1.0)
-    return p[P_ILOAD] * regulator_share(vo, p) + p[P_IQ] * math.tanh(vo / REG_SOFT_V)
+        th = math.tanh((vo - uvlo) / width)
+        gate = 0.5 * (1.0 + th)
+        dgate = 0.5 * (1.0 - th * th) / width
+        den = vo * vo + 1.0
+        i = p[P_PCONV] * gate * vo / den
+        return i, p[P_PCONV] * (dgate * vo / den + gate * (1.0 - vo * vo) / (den * den))
+    share, dshare = _regulator_share_and_slope(vo, p)
+    th = math.tanh(vo / REG_SOFT_V)
+    i = p[P_ILOAD] * share + p[P_IQ] * th
+    return i, p[P_ILOAD] * dshare + p[P_IQ] * (1.0 - th * th) / REG_SOFT_V
+
+
+@njit(cache=True, inline="always")
+def _regulator_share_and_slope(vo, p):
+    """:func:`regulator_share` and its derivative d share / d v_o [1/V]."""
+    u = (vo - p[P_VDO]) / p[P_VOUT]
+    s = REG_KNEE
+    sp1, sg1 = softplus_sigmoid(u / s)
+    sp2, sg2 = softplus_sigmoid((u - 1.0) / s)
+    return s * (sp1 - sp2), (sg1 - sg2) / p[P_VOUT]
 
 
 @njit(cache=True, inline="always")
@@ -181,30 +192,24 @@ def regulator_share(vo, p):
     headroom the output follows the input less the dropout and the load, taken as the
     resistance V_out / I_load, draws proportionally less. Knee width 0.5 % of V_out.
     """
-    u = (vo - p[P_VDO]) / p[P_VOUT]
-    s = REG_KNEE
-    return s * (softplus(u / s) - softplus((u - 1.0) / s))
+    return _regulator_share_and_slope(vo, p)[0]
 
 
 @njit(cache=True, inline="always")
-def _zener_current_a(v, p):
-    """Current [A] into a zener whose cathode is at ``v`` [V] against its anode."""
-    return zener_breakdown_current_a(v, p[P_Z_VK], p[P_Z_S], p[P_Z_RZ]) - diode_current_a(
-        -v, p[P_ZF_IS], p[P_ZF_NVT]
-    )
-
-
-@njit(cache=True, inline="always")
-def _bridge_paths_a(va, vo, p):
-    """Currents [A] of the two conducting paths of a bridge (positive, negative half)."""
-    i1 = diode_current_a(0.5 * (va - vo), p[P_D_IS], p[P_D_NVT])
-    i2 = diode_current_a(0.5 * (-va - vo), p[P_D_IS], p[P_D_NVT])
-    return i1, i2
+def _zener_iv(v, p):
+    """Current [A] into a zener whose cathode is at ``v`` [V] against its anode, and its
+    conductance [S]."""
+    ib, gb = zener_breakdown_iv(v, p[P_Z_VK], p[P_Z_S], p[P_Z_RZ])
+    i_f, g_f = diode_iv(-v, p[P_ZF_IS], p[P_ZF_NVT])
+    return ib - i_f, gb + g_f
 
 
 @njit(cache=True)
-def residual(x, t, p, f):
-    """Right-hand sides ``f`` of all rows at state ``x``, time ``t`` [s]."""
+def evaluate(x, t, p, f, jac):
+    """Right-hand sides ``f`` of all rows at state ``x``, time ``t`` [s], and their
+    analytic Jacobian d f / d x into ``jac`` (4 x 4), at once: a device's current and
+    conductance share one exponential (the solver needs both at every Newton iteration).
+    """
     topo = int(p[P_TOPO])
     rect = int(p[P_RECT])
     vc1 = x[S_VC1]
@@ -212,102 +217,70 @@ def residual(x, t, p, f):
     va = x[S_VA]
     i_s = x[S_IS]
     vs = p[P_VPK] * math.sin(p[P_OMEGA] * t)
-
-    if topo == CAPACITIVE_DROPPER:
-        f[S_VC1] = i_s - vc1 / p[P_RB]
-    else:
-        f[S_VC1] = -vc1
-    i_load = _load_current_a(vo, p)
-    n = p[P_NTURNS]
-    vr = va / n  # rectifier input voltage (the secondary's, for a transformer)
-    zener = topo == CAPACITIVE_DROPPER or topo == RESISTIVE_DROPPER
-    if rect == HALF_WAVE:
-        i_d = diode_current_a(vr - vo, p[P_D_IS], p[P_D_NVT])
-        f[S_VO] = i_d - i_load
-        f[S_VA] = i_s - i_d / n
-        if zener:
-            f[S_VA] -= _zener_current_a(va, p)
-    else:
-        i1, i2 = _bridge_paths_a(vr, vo, p)
-        f[S_VO] = i1 + i2 - i_load
-        if zener:
-            f[S_VO] -= _zener_current_a(vo, p)
-        f[S_VA] = i_s - (i1 - i2) / n
-    f[S_IS] = vs - (p[P_RSER] + p[P_RSRC]) * i_s - vc1 - va
-
-
-@njit(cache=True, inline="always")
-def _load_conductance_s(vo, p):
-    """d(load current)/d v_o [S] of :func:`_load_current_a`."""
-    if int(p[P_TOPO]) == RECTIFIER_SMPS:
-        uvlo = p[P_UVLO]
-        width = 0.02 * uvlo + 0.5
-        th = math.tanh((vo - uvlo) / width)
-        gate = 0.5 * (1.0 + th)
-        dgate = 0.5 * (1.0 - th * th) / width
-        den = vo * vo + 1.0
-        return p[P_PCONV] * (dgate * vo / den + gate * (1.0 - vo * vo) / (den * den))
-    u = (vo - p[P_VDO]) / p[P_VOUT]
-    s = REG_KNEE
-    dg = (sigmoid(u / s) - sigmoid((u - 1.0) / s)) / p[P_VOUT]
-    th = math.tanh(vo / REG_SOFT_V)
-    return p[P_ILOAD] * dg + p[P_IQ] * (1.0 - th * th) / REG_SOFT_V
-
-
-@njit(cache=True, inline="always")
-def _zener_conductance_s(v, p):
-    return zener_breakdown_conductance_s(v, p[P_Z_VK], p[P_Z_S], p[P_Z_RZ]) + diode_conductance_s(
-        -v, p[P_ZF_IS], p[P_ZF_NVT]
-    )
-
-
-@njit(cache=True)
-def jacobian(x, t, p, jac):
-    """Analytic Jacobian d f / d x of :func:`residual` into ``jac`` (4 x 4)."""
-    topo = int(p[P_TOPO])
-    rect = int(p[P_RECT])
-    vo = x[S_VO]
-    va = x[S_VA]
     for i in range(N_STATES):
         for j in range(N_STATES):
             jac[i, j] = 0.0
+
     if topo == CAPACITIVE_DROPPER:
+        f[S_VC1] = i_s - vc1 / p[P_RB]
         jac[S_VC1, S_VC1] = -1.0 / p[P_RB]
         jac[S_VC1, S_IS] = 1.0
     else:
+        f[S_VC1] = -vc1
         jac[S_VC1, S_VC1] = -1.0
-    g_load = _load_conductance_s(vo, p)
+    i_load, g_load = _load_iv(vo, p)
     n = p[P_NTURNS]
-    vr = va / n
+    vr = va / n  # rectifier input voltage (the secondary's, for a transformer)
     zener = topo == CAPACITIVE_DROPPER or topo == RESISTIVE_DROPPER
     jac[S_VA, S_IS] = 1.0
     if rect == HALF_WAVE:
-        gd = diode_conductance_s(vr - vo, p[P_D_IS], p[P_D_NVT])
+        i_d, gd = diode_iv(vr - vo, p[P_D_IS], p[P_D_NVT])
+        f[S_VO] = i_d - i_load
+        f[S_VA] = i_s - i_d / n
         jac[S_VO, S_VA] = gd / n
         jac[S_VO, S_VO] = -gd - g_load
         jac[S_VA, S_VO] = gd / n
         jac[S_VA, S_VA] = -gd / (n * n)
         if zener:
-            jac[S_VA, S_VA] -= _zener_conductance_s(va, p)
+            iz, gz = _zener_iv(va, p)
+            f[S_VA] -= iz
+            jac[S_VA, S_VA] -= gz
     else:
-        g1 = 0.5 * diode_conductance_s(0.5 * (vr - vo), p[P_D_IS], p[P_D_NVT])
-        g2 = 0.5 * diode_conductance_s(0.5 * (-vr - vo), p[P_D_IS], p[P_D_NVT])
+        i1, g1 = diode_iv(0.5 * (vr - vo), p[P_D_IS], p[P_D_NVT])
+        i2, g2 = diode_iv(0.5 * (-vr - vo), p[P_D_IS], p[P_D_NVT])
+        g1 *= 0.5
+        g2 *= 0.5
+        f[S_VO] = i1 + i2 - i_load
+        f[S_VA] = i_s - (i1 - i2) / n
         jac[S_VO, S_VA] = (g1 - g2) / n
         jac[S_VO, S_VO] = -g1 - g2 - g_load
-        if zener:
-            jac[S_VO, S_VO] -= _zener_conductance_s(vo, p)
         jac[S_VA, S_VA] = -(g1 + g2) / (n * n)
         jac[S_VA, S_VO] = (g1 - g2) / n
+        if zener:
+            iz, gz = _zener_iv(vo, p)
+            f[S_VO] -= iz
+            jac[S_VO, S_VO] -= gz
+    f[S_IS] = vs - (p[P_RSER] + p[P_RSRC]) * i_s - vc1 - va
     jac[S_IS, S_IS] = -(p[P_RSER] + p[P_RSRC])
     jac[S_IS, S_VC1] = -1.0
     jac[S_IS, S_VA] = -1.0
 
 
 @njit(cache=True)
+def residual(x, t, p, f):
+    """Right-hand sides ``f`` of all rows at state ``x``, time ``t`` [s] (:func:`evaluate`)."""
+    evaluate(x, t, p, f, np.empty((N_STATES, N_STATES)))
+
+
+@njit(cache=True)
+def jacobian(x, t, p, jac):
+    """Analytic Jacobian d f / d x of :func:`residual` into ``jac`` (4 x 4)."""
+    evaluate(x, t, p, np.empty(N_STATES), jac)
+
+
+@njit(cache=True)
 def probes(x, t, p, out):
     """Record the instantaneous quantities named in :data:`PROBES` into ``out``."""
-    f = np.empty(N_STATES)
-    residual(x, t, p, f)
     topo = int(p[P_TOPO])
     rect = int(p[P_RECT])
     vc1 = x[S_VC1]
@@ -337,37 +310,43 @@ def probes(x, t, p, out):
         out[PR_P_STORE_C1] = vc1 * (i_s - vc1 / p[P_RB])
     out[PR_I_LINE] = i_line
     out[PR_V_SOURCE] = vs
+    # the series row's L di/dt (the residual's f[S_IS]; zero when L_src = 0)
+    l_di_dt = vs - (p[P_RSER] + p[P_RSRC]) * i_s - vc1 - va
     # the supply's terminals: the source EMF less the drop across the mains' own source
     # impedance (R_src, and the mains' share of the series inductance, whose voltage is
-    # that share of the row's L di/dt = f[S_IS]; the rest is leakage inside the supply)
+    # that share of the row's L di/dt; the rest is leakage inside the supply)
     v_term = vs - p[P_RSRC] * i_s
     if p[P_LSRC] > 0.0:
-        v_term -= p[P_LMAINS] / p[P_LSRC] * f[S_IS]
+        v_term -= p[P_LMAINS] / p[P_LSRC] * l_di_dt
     out[PR_V_TERMINAL] = v_term
     out[PR_P_SERIES] = p[P_RSER] * i_s * i_s
     out[PR_P_SOURCE_R] = p[P_RSRC] * i_s * i_s
-    out[PR_P_STORE_L] = f[S_IS] * i_s  # L di/dt * i (zero when L_src = 0)
+    out[PR_P_STORE_L] = l_di_dt * i_s if p[P_LSRC] > 0.0 else 0.0
 
+    i_load = _load_iv(vo, p)[0]
     n = p[P_NTURNS]
     vr = va / n
     zener = topo == CAPACITIVE_DROPPER or topo == RESISTIVE_DROPPER
     if rect == HALF_WAVE:
-        i_d = diode_current_a(vr - vo, p[P_D_IS], p[P_D_NVT])
+        i_d = diode_iv(vr - vo, p[P_D_IS], p[P_D_NVT])[0]
+        i_reservoir = i_d - i_load
         out[PR_P_RECTIFIER] = (vr - vo) * i_d
         if zener:
-            iz = _zener_current_a(va, p)
+            iz = _zener_iv(va, p)[0]
             out[PR_P_ZENER] = va * iz
             out[PR_I_ZENER] = iz
     else:
-        i1, i2 = _bridge_paths_a(vr, vo, p)
+        i1 = diode_iv(0.5 * (vr - vo), p[P_D_IS], p[P_D_NVT])[0]
+        i2 = diode_iv(0.5 * (-vr - vo), p[P_D_IS], p[P_D_NVT])[0]
+        i_reservoir = i1 + i2 - i_load
         out[PR_P_RECTIFIER] = (vr - vo) * i1 + (-vr - vo) * i2
         if zener:
-            iz = _zener_current_a(vo, p)
+            iz = _zener_iv(vo, p)[0]
+            i_reservoir -= iz
             out[PR_P_ZENER] = vo * iz
             out[PR_I_ZENER] = iz
-    out[PR_P_STORE_RESERVOIR] = vo * f[S_VO]
+    out[PR_P_STORE_RESERVOIR] = vo * i_reservoir  # v_o C_o dv_o/dt
 
-    i_load = _load_current_a(vo, p)
     p_load = vo * i_load
     if topo == RECTIFIER_SMPS:
         out[PR_P_DELIVERED] = p[P_ETA] * p_load

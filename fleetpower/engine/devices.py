@@ -70,47 +70,73 @@ def zener_knee(vz_v: float, izt_a: float, rz_ohm: float) -> tuple[float, float]:
 
 
 @njit(cache=True, inline="always")
-def diode_current_a(v_v, is_a, nvt_v):
-    """Shockley diode current [A] at junction voltage ``v_v`` [V], tangent-continued."""
+def diode_iv(v_v, is_a, nvt_v):
+    """Shockley diode current [A] and conductance d i_D / d v [S] at junction voltage
+    ``v_v`` [V], tangent-continued above :data:`I_GUARD_A`, from one exponential.
+
+    ``e - 1`` stands for ``expm1(u)`` where it is exact to a couple of ulp (|u| > 0.7:
+    ``e`` >= 2 or <= 0.5); nearer zero ``expm1`` is taken.
+    """
     u = v_v / nvt_v
-    u_max = math.log(I_GUARD_A / is_a)
-    if u > u_max:
-        return is_a * (math.exp(u_max) * (1.0 + u - u_max) - 1.0)
-    return is_a * math.expm1(u)
+    e = math.exp(u)
+    if is_a * e > I_GUARD_A:  # beyond the guard (an overflowed exponential included)
+        u_max = math.log(I_GUARD_A / is_a)
+        e_max = math.exp(u_max)
+        return is_a * (e_max * (1.0 + u - u_max) - 1.0), is_a * e_max / nvt_v
+    em1 = e - 1.0 if abs(u) > 0.7 else math.expm1(u)
+    return is_a * em1, is_a * e / nvt_v
 
 
 @njit(cache=True, inline="always")
-def softplus(u):
-    """ln(1 + e^u) without overflow."""
-    if u > 0.0:
-        return u + math.log1p(math.exp(-u))
-    return math.log1p(math.exp(u))
-
-
-@njit(cache=True, inline="always")
-def zener_breakdown_current_a(v_v, vk_v, s_v, rz_ohm):
-    """Reverse (breakdown) current [A] of a zener reverse-biased by ``v_v`` [V] (> 0)."""
-    return s_v / rz_ohm * softplus((v_v - vk_v) / s_v)
+def diode_current_a(v_v, is_a, nvt_v):
+    """Shockley diode current [A] at junction voltage ``v_v`` [V] (:func:`diode_iv`)."""
+    return diode_iv(v_v, is_a, nvt_v)[0]
 
 
 @njit(cache=True, inline="always")
 def diode_conductance_s(v_v, is_a, nvt_v):
     """d i_D / d v [S] of :func:`diode_current_a`."""
-    u = v_v / nvt_v
-    u_max = math.log(I_GUARD_A / is_a)
-    return is_a * math.exp(min(u, u_max)) / nvt_v
+    return diode_iv(v_v, is_a, nvt_v)[1]
+
+
+@njit(cache=True, inline="always")
+def softplus_sigmoid(u):
+    """ln(1 + e^u) and its derivative 1 / (1 + e^-u), without overflow, from one
+    exponential."""
+    if u > 0.0:
+        e = math.exp(-u)
+        return u + math.log1p(e), 1.0 / (1.0 + e)
+    e = math.exp(u)
+    return math.log1p(e), e / (1.0 + e)
+
+
+@njit(cache=True, inline="always")
+def softplus(u):
+    """ln(1 + e^u) without overflow."""
+    return softplus_sigmoid(u)[0]
 
 
 @njit(cache=True, inline="always")
 def sigmoid(u):
     """d softplus / du = 1 / (1 + e^-u) without overflow."""
-    if u >= 0.0:
-        return 1.0 / (1.0 + math.exp(-u))
-    e = math.exp(u)
-    return e / (1.0 + e)
+    return softplus_sigmoid(u)[1]
+
+
+@njit(cache=True, inline="always")
+def zener_breakdown_iv(v_v, vk_v, s_v, rz_ohm):
+    """Reverse (breakdown) current [A] of a zener reverse-biased by ``v_v`` [V] (> 0) and
+    its conductance d i_Z / d v [S], from one exponential."""
+    sp, sg = softplus_sigmoid((v_v - vk_v) / s_v)
+    return s_v / rz_ohm * sp, sg / rz_ohm
+
+
+@njit(cache=True, inline="always")
+def zener_breakdown_current_a(v_v, vk_v, s_v, rz_ohm):
+    """Reverse (breakdown) current [A] of a zener reverse-biased by ``v_v`` [V] (> 0)."""
+    return zener_breakdown_iv(v_v, vk_v, s_v, rz_ohm)[0]
 
 
 @njit(cache=True, inline="always")
 def zener_breakdown_conductance_s(v_v, vk_v, s_v, rz_ohm):
     """d i_Z / d v [S] of :func:`zener_breakdown_current_a`."""
-    return sigmoid((v_v - vk_v) / s_v) / rz_ohm
+    return zener_breakdown_iv(v_v, vk_v, s_v, rz_ohm)[1]

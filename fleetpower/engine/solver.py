@@ -52,7 +52,7 @@ import numpy as np
 from numba import njit
 
 from ..errors import SolverError
-from .circuits import jacobian, mass_vector, probes, residual
+from .circuits import evaluate, mass_vector, probes, residual
 from .layout import (
     N_PARAMS,
     N_PROBES,
@@ -97,6 +97,11 @@ RELAXED_ABOVE = 1e-2
 #: predictor's O(h^4) error is below it at the default step, so most steps need one
 #: iteration
 NEWTON_RTOL = 1e-6
+#: a step where the guide's own cubic predictor misses the guide's next point by more
+#: than this many Newton tolerances is a device switching (a diode or zener turning on or
+#: off): there the current cycle is predicted by the guide's step instead of the cubic
+#: (DEVELOPERS.md "Accuracy per cost"; 1 to 10 measured alike)
+GUIDE_SWITCH_TOLERANCES = 3.0
 
 #: columns of the per-variant ``info`` row of :func:`_shoot`
 N_INFO = 5
@@ -157,12 +162,6 @@ def _solve_small(a, b, n):
 
 
 @njit(cache=True)
-def _jacobian(x, t, p, f0, jac, scale):
-    """Analytic Jacobian of the residual (``f0`` and ``scale`` kept for the FD variant)."""
-    jacobian(x, t, p, jac)
-
-
-@njit(cache=True)
 def jacobian_fd(x, t, p, f0, jac, scale):
     """Forward-difference Jacobian of the residual at ``x`` (``f0`` = residual there).
 
@@ -192,8 +191,7 @@ def _consistent(x, t, p, m, scale, info):
     a = np.empty((n, n))
     b = np.empty((n, 1))
     for _ in range(4 * MAX_NEWTON_ITERATIONS):
-        residual(x, t, p, f)
-        _jacobian(x, t, p, f, jac, scale)
+        evaluate(x, t, p, f, jac)
         info[INFO_RESIDUALS] += 1
         info[INFO_JACOBIANS] += 1
         for i in range(n):
@@ -281,13 +279,23 @@ def _lu_solve(a, piv, b, n, ncol):
 
 
 @njit(cache=True)
-def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol):
+def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol, guide,
+               use_guide):
     """Integrate one period from ``x0``; store states in ``xs`` (n_steps+1, n).
 
     ``sens`` (n, nd) receives d x(T) / d x0 along the ``nd`` differential directions
     ``idx`` (the algebraic unknowns follow from them). Returns a
     status code. Residual and Jacobian evaluations are counted in ``info`` (see
     :func:`_shoot`).
+
+    ``guide`` (n_steps, n), used when ``use_guide``: one period of a nearby trajectory at
+    the same steps (a nominal unit's steady state). Each step is
+    predicted by a cubic through the last four points, except where the guide shows a
+    device switching (its own cubic misses its next point by more than
+    :data:`GUIDE_SWITCH_TOLERANCES` Newton tolerances) and at the first three steps, which
+    have no four points yet: there the prediction is this cycle's point plus the guide's
+    step, ``x_k + (g_{k+1} - g_k)``. The predictor only sets where each step's Newton
+    iteration starts, never the accepted point's tolerance.
     """
     n = N_STATES
     period = 2.0 * math.pi / p[P_OMEGA]
@@ -303,8 +311,7 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol):
     s = np.zeros((n, nd))
     x = x0.copy()
 
-    residual(x, 0.0, p, f_old)
-    _jacobian(x, 0.0, p, f_old, jac_old, scale)
+    evaluate(x, 0.0, p, f_old, jac_old)
     info[INFO_RESIDUALS] += 1
     info[INFO_JACOBIANS] += 1
     # initial sensitivity, column c for differential unknown j = idx[c]: the
@@ -346,10 +353,21 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol):
                 xn[i] = 2.0 * x[i] - x_prev[i]
             else:
                 xn[i] = x[i]
+        if use_guide:
+            # the guide is periodic: its points before k = 0 are the period's last ones
+            k1 = (k + 1) % n_steps
+            switching = k < 3
+            for i in range(n):
+                g_cubic = (4.0 * guide[k, i] - 6.0 * guide[k - 1, i]
+                           + 4.0 * guide[k - 2, i] - guide[k - 3, i])
+                if abs(guide[k1, i] - g_cubic) > GUIDE_SWITCH_TOLERANCES * newton_rtol * scale[i]:
+                    switching = True
+            if switching:
+                for i in range(n):
+                    xn[i] = x[i] + guide[k1, i] - guide[k, i]
         ok = False
         for _ in range(MAX_NEWTON_ITERATIONS):
-            residual(xn, t1, p, f_new)
-            _jacobian(xn, t1, p, f_new, jac_new, scale)
+            evaluate(xn, t1, p, f_new, jac_new)
             info[INFO_RESIDUALS] += 1
             info[INFO_JACOBIANS] += 1
             for i in range(n):
@@ -425,9 +443,14 @@ def _periodic_norm(x0, x1, idx, nd, scale):
 
 
 @njit(cache=True)
-def _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info, newton_rtol):
-    """One cycle from ``x``; returns (status, periodicity norm) and fills ``x_end``."""
-    status = _one_cycle(p, x, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol)
+def _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info, newton_rtol, guide,
+               use_guide):
+    """One cycle from ``x``; returns (status, periodicity norm) and fills ``x_end``.
+
+    Predicted along ``guide`` when ``use_guide`` (see :func:`_one_cycle`).
+    """
+    status = _one_cycle(p, x, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol,
+                        guide, use_guide)
     if status != STATUS_OK:
         return status, np.inf
     for i in range(x.shape[0]):
@@ -449,8 +472,14 @@ def _differential_unknowns(m, idx):
 
 
 @njit(cache=True)
-def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
+def _shoot(p, x0, n_steps, xs, out_probe, info, tols, guide, use_guide):
     """Periodic steady state of one variant. Fills ``xs``, ``out_probe`` and ``info``.
+
+    ``guide`` (n_steps, n), when ``use_guide``, is a nearby steady state's period at the
+    same steps (see :func:`_one_cycle`), the same for every cycle: the one-cycle map the
+    shooting iteration solves must not change between its iterations (a guide taken from
+    each previous cycle moved the accepted points by up to the Newton tolerance from one
+    iteration to the next, and 2 of 120 random designs then stalled short of 1e-9).
 
     ``info`` = [status, shooting iterations, periodicity residual (relative), residual
     evaluations, Jacobian evaluations] (the last two counted, the cost measure of
@@ -493,7 +522,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
 
     x_end = np.empty(n)  # x(T) of the accepted iterate x
     status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
-                                  newton_rtol)
+                                  newton_rtol, guide, use_guide)
     cycles += 1
     while status == STATUS_OK and norm >= rtol and cycles < MAX_SHOOTING_ITERATIONS:
         info[2] = norm
@@ -523,7 +552,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
             for i in range(n):
                 x[i] = x_best[i]
             status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
-                                  newton_rtol)
+                                  newton_rtol, guide, use_guide)
             cycles += 1
             watch = WATCHDOG_OFF
             continue
@@ -541,7 +570,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
             if not _consistent(xt, 0.0, p, m, scale, info):
                 continue
             st, trial = _integrate(p, xt, n_steps, m, scale, xs, sens, idx, nd, xt_end, info,
-                                   newton_rtol)
+                                   newton_rtol, guide, use_guide)
             cycles += 1
             if st != STATUS_OK:
                 continue
@@ -574,7 +603,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
                 status = STATUS_STEP_FAILED
                 break
             status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
-                                  newton_rtol)
+                                  newton_rtol, guide, use_guide)
             cycles += 1
     info[1] = cycles
     info[2] = norm
@@ -598,11 +627,18 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols):
 
 
 @njit(cache=True, nogil=True)
-def _shoot_rows(params, x0, n_steps, xs, out_probe, info, tols, start, stop):
+def _shoot_rows(params, x0, guides, n_steps, xs, out_probe, info, tols, start, stop):
     """Shoot rows ``start .. stop-1`` of a batch (rows are independent; the GIL is
-    released, so threads of one process run several ranges at once)."""
+    released, so threads of one process run several ranges at once). ``guides`` is
+    (batch, n_steps, n), a row of NaN meaning none, or (0, n_steps, n) for none at all."""
+    none = np.empty((n_steps, N_STATES))
     for b in range(start, stop):
-        _shoot(params[b], x0[b], n_steps, xs[b], out_probe[b], info[b], tols)
+        if guides.shape[0] > 0 and not math.isnan(guides[b, 0, 0]):
+            _shoot(params[b], x0[b], n_steps, xs[b], out_probe[b], info[b], tols,
+                   guides[b], True)
+        else:
+            _shoot(params[b], x0[b], n_steps, xs[b], out_probe[b], info[b], tols, none,
+                   False)
 
 
 #: the batch's worker threads by count (made on first use, kept for the process)
@@ -663,26 +699,31 @@ class SteadyState:
 
 
 def _run_batch(params: np.ndarray, x0: np.ndarray, n: int, rtol: float = PERIODIC_RTOL,
-               newton_rtol: float = NEWTON_RTOL, threads: int | None = None):
+               newton_rtol: float = NEWTON_RTOL, threads: int | None = None,
+               guides: np.ndarray | None = None):
     """Shoot every row at ``n`` steps per cycle: (states, probes, info) arrays.
 
     Rows are shot in ranges by ``threads`` threads (default :func:`engine_threads`); each
     row is independent of the others, so the result is the same for any number.
+    ``guides`` (batch, n, 4), NaN rows for none: see :func:`solve_periodic`.
     """
     tols = np.array([rtol, newton_rtol])
+    if guides is None:
+        guides = np.empty((0, n, N_STATES))
     batch = params.shape[0]
     xs = np.empty((batch, n + 1, N_STATES))
     pr = np.empty((batch, n, N_PROBES))
     info = np.zeros((batch, N_INFO))
     threads = min(engine_threads() if threads is None else max(1, int(threads)), batch)
     if threads <= 1:  # one row or one thread: no pool to wake
-        _shoot_rows(params, x0, n, xs, pr, info, tols, 0, batch)
+        _shoot_rows(params, x0, guides, n, xs, pr, info, tols, 0, batch)
         return xs, pr, info
     # ranges of a few rows, handed out as threads free up: a row needing many shooting
     # cycles does not hold up the rest
     step = max(1, batch // (8 * threads))
     ranges = [(a, min(a + step, batch)) for a in range(0, batch, step)]
-    futures = [_pool(threads).submit(_shoot_rows, params, x0, n, xs, pr, info, tols, a, b)
+    futures = [_pool(threads).submit(_shoot_rows, params, x0, guides, n, xs, pr, info, tols, a,
+                                         b)
                for a, b in ranges]
     for f in futures:
         f.result()
@@ -698,6 +739,7 @@ def solve_periodic(
     coarse_start: int | None = None,
     periodic_rtol: float = PERIODIC_RTOL,
     threads: int | None = None,
+    guides: np.ndarray | None = None,
 ) -> SteadyState:
     """Solve a batch of circuit variants to periodic steady state.
 
@@ -726,6 +768,13 @@ def solve_periodic(
     threads : int, optional
         Threads the batch's rows are shot on (default :func:`engine_threads`); the
         result does not depend on it.
+    guides : ndarray, shape (batch, samples_per_cycle, 4), optional
+        Per row, one period of a nearby steady state's unknowns at the same samples (a
+        nominal unit's ``SteadyState.states`` row), or NaN for none: the time steps of
+        every cycle are predicted along it where a device switches (see
+        :func:`_one_cycle`), saving Newton iterations. It sets where each Newton
+        iteration starts, not where it ends (the same fixed point to the tolerances).
+        Not used by the coarse first solve.
 
     Returns
     -------
@@ -743,18 +792,23 @@ def solve_periodic(
     if not np.all(np.isfinite(params)):
         raise SolverError("a circuit parameter is NaN or infinite")
     n = int(samples_per_cycle)
+    if guides is not None:
+        guides = np.ascontiguousarray(guides, dtype=np.float64)
+        if guides.shape != (params.shape[0], n, N_STATES):
+            raise ValueError("guides must be (batch, samples_per_cycle, 4)")
     nc = DEFAULT_COARSE_START if coarse_start is None else int(coarse_start)
     if 0 < nc < n:
         xs_c, _, info_c = _run_batch(params, x0, nc, COARSE_RTOL, COARSE_NEWTON_RTOL, threads)
         ok = info_c[:, 0] == STATUS_OK
         # each fine solve starts where its coarse one settled (else where it was asked to)
         x_warm = np.ascontiguousarray(np.where(ok[:, None], xs_c[:, 0, :], x0))
-        xs, pr, info = _run_batch(params, x_warm, n, periodic_rtol, NEWTON_RTOL, threads)
+        xs, pr, info = _run_batch(params, x_warm, n, periodic_rtol, NEWTON_RTOL, threads,
+                                  guides)
         info[:, 1] += info_c[:, 1]
         info[:, INFO_RESIDUALS] += info_c[:, INFO_RESIDUALS]
         info[:, INFO_JACOBIANS] += info_c[:, INFO_JACOBIANS]
     else:
-        xs, pr, info = _run_batch(params, x0, n, periodic_rtol, NEWTON_RTOL, threads)
+        xs, pr, info = _run_batch(params, x0, n, periodic_rtol, NEWTON_RTOL, threads, guides)
     bad = np.flatnonzero(info[:, 0] != STATUS_OK)
     if bad.size and raise_on_failure:
         b = int(bad[0])
@@ -779,8 +833,9 @@ def solve_periodic(
 # first run on a machine: compiling the engine
 # ----------------------------------------------------------------------------------
 #: the one signature the batch entry point is called with (see :func:`solve_periodic`)
-_BATCH_SIGNATURE = "(float64[:, ::1], float64[:, ::1], int64, float64[:, :, ::1], " \
-                   "float64[:, :, ::1], float64[:, ::1], float64[::1], int64, int64)"
+_BATCH_SIGNATURE = "(float64[:, ::1], float64[:, ::1], float64[:, :, ::1], int64, " \
+                   "float64[:, :, ::1], float64[:, :, ::1], float64[:, ::1], float64[::1], " \
+                   "int64, int64)"
 
 
 def engine_is_compiled() -> bool:

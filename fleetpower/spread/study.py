@@ -136,6 +136,10 @@ class SpreadPlan:
     warm_fit: WarmFit | None = None
     #: the nominal unit's inputs and results outside the range of small mains gadgets
     range_warnings: tuple[RangeWarning, ...] = ()
+    #: per case of a sample, the nominal solution's unknowns over its settled cycle
+    #: (:attr:`~fleetpower.simulate.StateResult.x_cycle`), which guide the samples' time
+    #: steps where a device switches; () when the samples start cold (no ``warm``)
+    warm_cycles: tuple[np.ndarray, ...] = ()
 
     def starts(self, values: np.ndarray) -> list[tuple[float, ...]] | None:
         """Fitted starting unknowns of every case of the samples ``values`` (flat, sample
@@ -234,7 +238,7 @@ class WarmFit:
 
 
 def _warm_fit(design: Design, spreads, n: int, values_of, warm, samples_per_cycle: int,
-              periodic_rtol) -> WarmFit | None:
+              periodic_rtol, guides=()) -> WarmFit | None:
     """Per case, the least-squares fit of the pilot samples' settled unknowns on their
     deviations: quadratic (every square and product) when the run is large enough to pay
     for its pilots, else linear; a model of the solution around the nominal.
@@ -252,7 +256,7 @@ def _warm_fit(design: Design, spreads, n: int, values_of, warm, samples_per_cycl
         return None
     values = values_of(0, m)
     designs = [sample_design(design, spreads, r) for r in values]
-    solved = _solve_units(designs, warm, samples_per_cycle, periodic_rtol)
+    solved = _solve_units(designs, warm, samples_per_cycle, periodic_rtol, guides=guides)
     if any(r is None for r in solved):
         return None
     a = _features(_deviations(spreads, values), quadratic)
@@ -317,12 +321,13 @@ def plan_spread(
         n = int(samples)
     nominal = _nominal(design, samples_per_cycle)
     outside = tuple(unique(w for r in nominal[:len(design.states)] for w in r.range_warnings))
+    warm = _warm_start(design, samples_per_cycle, nominal)
     plan = SpreadPlan(design, spreads, "corners" if corners else "monte-carlo", int(seed), n,
-                      table, labels, samples_per_cycle,
-                      _warm_start(design, samples_per_cycle, nominal),
-                      limits_file, check_limits, periodic_rtol, range_warnings=outside)
+                      table, labels, samples_per_cycle, warm,
+                      limits_file, check_limits, periodic_rtol, range_warnings=outside,
+                      warm_cycles=tuple(r.x_cycle for r in nominal) if warm else ())
     fit = _warm_fit(design, spreads, n, plan.values, plan.warm, samples_per_cycle,
-                    periodic_rtol)
+                    periodic_rtol, plan.warm_cycles)
     return dataclasses.replace(plan, warm_fit=fit) if fit is not None else plan
 
 
@@ -387,13 +392,15 @@ class ChunkOutcome:
 
 
 def _solve_units(designs: list[Design], warm, samples_per_cycle, periodic_rtol=None,
-                 starts=None):
+                 starts=None, guides=()):
     """Every case of every unit in one batch; per unit its results (None if unsolved).
 
     Warm-started from ``starts`` (per case, flat: :meth:`SpreadPlan.starts`) or else the
-    nominal solution ``warm`` when the plan has one; if any unit then finds no steady
-    state, the chunk is solved again from the topologies' own initial guesses (one batch),
-    and only if that fails too unit by unit, marking the failing ones.
+    nominal solution ``warm`` when the plan has one, its time steps guided by the nominal
+    cycles ``guides`` (per case of a unit: :attr:`SpreadPlan.warm_cycles`); if any unit
+    then finds no steady state, the chunk is solved again from the topologies' own
+    initial guesses (one batch), and only if that fails too unit by unit, marking the
+    failing ones.
     """
     per = [_sample_cases(d) for d in designs]
     cases = [c for cs in per for c in cs]
@@ -402,12 +409,14 @@ def _solve_units(designs: list[Design], warm, samples_per_cycle, periodic_rtol=N
         attempts.insert(0, list(starts))
     elif warm:
         attempts.insert(0, [w for cs in per for w in warm[: len(cs)]])
+    along = [g for cs in per for g in guides[: len(cs)]] if guides else None
     for initial in attempts:
         try:
             # from the nominal's solution, straight at the run's resolution: a coarse
             # first solve saves nothing at a spread's few steps (DEVELOPERS.md)
             flat = sim.run(cases, samples_per_cycle, cache=None, initial=initial,
-                           coarse_start=0 if initial else None, periodic_rtol=periodic_rtol)
+                           coarse_start=0 if initial else None, periodic_rtol=periodic_rtol,
+                           guides=along if initial else None)
         except SolverError:
             continue
         out, k = [], 0
@@ -434,7 +443,7 @@ def evaluate_chunk(plan: SpreadPlan, bounds: tuple[int, int]) -> ChunkOutcome:
     values = plan.values(start, stop)
     designs = [sample_design(plan.design, plan.spreads, row) for row in values]
     solved = _solve_units(designs, plan.warm, plan.samples_per_cycle, plan.periodic_rtol,
-                          plan.starts(values))
+                          plan.starts(values), plan.warm_cycles)
     rows_fig, rows_fail = [], []
     for d, res in zip(designs, solved, strict=True):
         if res is None:
@@ -574,10 +583,12 @@ def evaluate_ageing_chunk(plan: SpreadPlan, years: tuple[int, ...], rate: float,
             cases.append(sim.Case(aged, state))
     ok, vmin = np.zeros(len(cases), bool), np.full(len(cases), np.nan)
     attempts = ([[plan.warm[k]] * len(cases)] if plan.warm else []) + [None]
+    along = [plan.warm_cycles[k]] * len(cases) if plan.warm_cycles else None
     for initial in attempts:
         try:
             res = sim.run(cases, plan.samples_per_cycle, cache=None, initial=initial,
-                          periodic_rtol=plan.periodic_rtol)
+                          periodic_rtol=plan.periodic_rtol,
+                          guides=along if initial else None)
         except SolverError:
             continue
         ok = np.array([r.in_regulation for r in res])
