@@ -614,7 +614,8 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols, guide, use_guide):
         return  # STATUS_NOT_PERIODIC
     info[0] = STATUS_OK
     # xs holds the accepted iterate's cycle: the loop ends right after integrating x
-    # record probes on the converged cycle (samples 0..n_steps-1)
+    # record probes on the converged cycle (samples 0..n_steps-1), probe by probe: each
+    # probe's waveform is contiguous (``out_probe`` is (N_PROBES, n_steps))
     w = p[P_OMEGA]
     h = 2.0 * math.pi / w / n_steps
     pr = np.empty(N_PROBES)
@@ -623,7 +624,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols, guide, use_guide):
         for j in range(N_PROBES):
             if not math.isfinite(pr[j]):
                 info[0] = STATUS_NAN
-            out_probe[k, j] = pr[j]
+            out_probe[j, k] = pr[j]
 
 
 @njit(cache=True, nogil=True)
@@ -670,8 +671,9 @@ class SteadyState:
     states : ndarray, shape (batch, n, 4)
         Unknowns v_c1 [V], v_o [V], v_a [V], i_s [A] at each sample.
     probes : ndarray, shape (batch, n, len(PROBES))
-        Instantaneous quantities named in :data:`fleetpower.engine.layout.PROBES` (read them by name with
-        :meth:`probe`).
+        Instantaneous quantities named in :data:`fleetpower.engine.layout.PROBES` (read
+        them by name with :meth:`probe`); a view of probe-major storage, so each probe's
+        samples are contiguous.
     iterations : ndarray of int, shape (batch,)
         Shooting-Newton iterations (one-cycle integrations) used.
     periodic_residual : ndarray, shape (batch,)
@@ -701,7 +703,8 @@ class SteadyState:
 def _run_batch(params: np.ndarray, x0: np.ndarray, n: int, rtol: float = PERIODIC_RTOL,
                newton_rtol: float = NEWTON_RTOL, threads: int | None = None,
                guides: np.ndarray | None = None):
-    """Shoot every row at ``n`` steps per cycle: (states, probes, info) arrays.
+    """Shoot every row at ``n`` steps per cycle: (states, probes, info) arrays, the probes
+    probe-major, (batch, N_PROBES, n).
 
     Rows are shot in ranges by ``threads`` threads (default :func:`engine_threads`); each
     row is independent of the others, so the result is the same for any number.
@@ -712,7 +715,10 @@ def _run_batch(params: np.ndarray, x0: np.ndarray, n: int, rtol: float = PERIODI
         guides = np.empty((0, n, N_STATES))
     batch = params.shape[0]
     xs = np.empty((batch, n + 1, N_STATES))
-    pr = np.empty((batch, n, N_PROBES))
+    # probe-major: a probe's samples are contiguous, so the figures read from a few
+    # probes over a whole batch (power quality, means, extremes) touch only those
+    # (measured: 27 us per case less in simulate._state_results at 256 steps)
+    pr = np.empty((batch, N_PROBES, n))
     info = np.zeros((batch, N_INFO))
     threads = min(engine_threads() if threads is None else max(1, int(threads)), batch)
     if threads <= 1:  # one row or one thread: no pool to wake
@@ -821,7 +827,7 @@ def solve_periodic(
     return SteadyState(
         t_s=np.arange(n) * (period / n),
         states=xs[:, :n, :],
-        probes=pr,
+        probes=pr.transpose(0, 2, 1),
         iterations=info[:, 1].astype(int),
         periodic_residual=info[:, 2],
         converged=info[:, 0] == STATUS_OK,
