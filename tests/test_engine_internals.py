@@ -293,3 +293,21 @@ def test_a_guide_changes_the_cost_not_the_answer():
     np.testing.assert_array_equal(partly.probes[1:], guided.probes[1:])
     with pytest.raises(ValueError, match="guides"):
         solve_periodic(rows, starts, guides=guides[:, :128], **kw)
+
+
+def test_softplus_limits_far_from_the_knee_are_exact():
+    # Beyond |u| = SOFTPLUS_EXACT_LIMIT the softplus and its slope are taken as their
+    # limits (u, 1) and (e^u, e^u) without the logarithm: the same doubles as the full
+    # formulas ln(1 + e^u) = u + ln(1 + e^-u) and 1 / (1 + e^-u), computed here in Python
+    # (IEEE 754 rounding: e^-37 = 8.5e-17 is below half an ulp of 1 and of 37)
+    def full(u):
+        if u > 0.0:
+            e = math.exp(-u)
+            return u + math.log1p(e), 1.0 / (1.0 + e)
+        e = math.exp(u)
+        return math.log1p(e), e / (1.0 + e)
+
+    lim = dv.SOFTPLUS_EXACT_LIMIT
+    for u in np.concatenate([np.linspace(lim - 2, lim + 2, 4001), -np.linspace(lim - 2, lim + 2, 4001),
+                             [700.0, -700.0, 1e6, -1e6]]):
+        assert dv.softplus_sigmoid(float(u)) == full(float(u)), u

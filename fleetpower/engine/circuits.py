@@ -323,7 +323,12 @@ def probes(x, t, p, out):
     out[PR_P_SOURCE_R] = p[P_RSRC] * i_s * i_s
     out[PR_P_STORE_L] = l_di_dt * i_s if p[P_LSRC] > 0.0 else 0.0
 
-    i_load = _load_iv(vo, p)[0]
+    if topo == RECTIFIER_SMPS:
+        i_load = _load_iv(vo, p)[0]
+    else:  # as _load_iv, with the share and the soft turn-on kept for the losses below
+        share = regulator_share(vo, p)
+        soft_on = math.tanh(vo / REG_SOFT_V)
+        i_load = p[P_ILOAD] * share + p[P_IQ] * soft_on
     n = p[P_NTURNS]
     vr = va / n
     zener = topo == CAPACITIVE_DROPPER or topo == RESISTIVE_DROPPER
@@ -353,10 +358,9 @@ def probes(x, t, p, out):
         out[PR_P_CONVERTER] = p_load - out[PR_P_DELIVERED]
         out[PR_V_OUT] = vo
     else:
-        g = regulator_share(vo, p)
-        v_out = p[P_VOUT] * g
-        out[PR_P_DELIVERED] = v_out * p[P_ILOAD] * g
-        out[PR_P_REG_QUIESCENT] = vo * p[P_IQ] * math.tanh(vo / REG_SOFT_V)
+        v_out = p[P_VOUT] * share
+        out[PR_P_DELIVERED] = v_out * p[P_ILOAD] * share
+        out[PR_P_REG_QUIESCENT] = vo * p[P_IQ] * soft_on
         out[PR_P_REG_PASS] = p_load - out[PR_P_DELIVERED] - out[PR_P_REG_QUIESCENT]
         out[PR_V_OUT] = v_out
     out[PR_V_C1] = vc1

@@ -99,14 +99,24 @@ def diode_conductance_s(v_v, is_a, nvt_v):
     return diode_iv(v_v, is_a, nvt_v)[1]
 
 
+#: beyond this |u| the softplus and its slope take their limits exactly in double
+#: precision (e^-|u| < 8.6e-17: ln(1 + e) rounds to e, u + e to u, 1 + e to 1)
+SOFTPLUS_EXACT_LIMIT = 37.0
+
+
 @njit(cache=True, inline="always")
 def softplus_sigmoid(u):
     """ln(1 + e^u) and its derivative 1 / (1 + e^-u), without overflow, from one
-    exponential."""
+    exponential (none far above the knee, where both are their limits u and 1 to the bit:
+    a regulator in regulation, a zener well in breakdown)."""
+    if u > SOFTPLUS_EXACT_LIMIT:
+        return u, 1.0
     if u > 0.0:
         e = math.exp(-u)
         return u + math.log1p(e), 1.0 / (1.0 + e)
     e = math.exp(u)
+    if u < -SOFTPLUS_EXACT_LIMIT:
+        return e, e
     return math.log1p(e), e / (1.0 + e)
 
 

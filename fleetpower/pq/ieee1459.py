@@ -202,11 +202,12 @@ def power_quality_rows(v_v: np.ndarray, i_a: np.ndarray) -> list[PowerQuality]:
         raise ValueError("v_v and i_a must be 2-D arrays of equal shape")
     if not (np.all(np.isfinite(v)) and np.all(np.isfinite(i))):
         raise ValueError("voltage or current samples contain NaN or infinity")
-    vh = phasors(v)
-    ih = phasors(i)
+    # the orders reported (0..H_MAX) only: the same values as every order, sliced
+    vh = phasors(v, H_MAX)
+    ih = phasors(i, H_MAX)
     ref = np.where(np.abs(vh[:, 1]) > 0, np.angle(vh[:, 1]), 0.0)
     rot = np.exp(-1j * ref[:, None] * np.arange(vh.shape[-1]))
-    vh, ih = (vh * rot)[:, : H_MAX + 1], (ih * rot)[:, : H_MAX + 1]
+    vh, ih = vh * rot, ih * rot
     v_rms = np.sqrt(np.mean(v * v, axis=-1))
     i_rms = np.sqrt(np.mean(i * i, axis=-1))
     i_peak = np.max(np.abs(i), axis=-1)

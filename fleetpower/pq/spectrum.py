@@ -20,17 +20,19 @@ if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is 
 H_MAX = 50
 
 
-def phasors(x: np.ndarray) -> np.ndarray:
+def phasors(x: np.ndarray, h_max: int | None = None) -> np.ndarray:
     """Complex rms phasors of every harmonic of samples spanning whole periods.
 
     Parameters
     ----------
     x : ndarray, shape (..., n)
         Uniform samples over exactly one period (the last axis).
+    h_max : int, optional
+        Highest order returned (default: every order, n // 2); the same values, fewer.
 
     Returns
     -------
-    ndarray of complex, shape (..., n // 2 + 1)
+    ndarray of complex, shape (..., n // 2 + 1) or (..., h_max + 1)
         Index h is the h-th harmonic's rms phasor (cosine reference); index 0 is the
         DC value (real).
 
@@ -43,7 +45,10 @@ def phasors(x: np.ndarray) -> np.ndarray:
     """
     x = np.asarray(x, dtype=float)
     n = x.shape[-1]
-    c = np.fft.rfft(x, axis=-1) / n
+    c = np.fft.rfft(x, axis=-1)
+    if h_max is not None:
+        c = c[..., : h_max + 1]
+    c = c / n
     out = c * np.sqrt(2.0)
     out[..., 0] = c[..., 0].real
     return out
