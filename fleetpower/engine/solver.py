@@ -279,14 +279,16 @@ def _lu_solve(a, piv, b, n, ncol):
 
 
 @njit(cache=True)
-def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol, guide,
+def _one_cycle(p, x0, n_steps, m, scale, xs, tape, idx, nd, info, newton_rtol, guide,
                use_guide):
     """Integrate one period from ``x0``; store states in ``xs`` (n_steps+1, n).
 
-    ``sens`` (n, nd) receives d x(T) / d x0 along the ``nd`` differential directions
-    ``idx`` (the algebraic unknowns follow from them). Returns a
-    status code. Residual and Jacobian evaluations are counted in ``info`` (see
-    :func:`_shoot`).
+    ``tape`` (a :func:`_new_tape`) receives what d x(T) / d x0 along the ``nd``
+    differential directions ``idx`` is made of (the algebraic unknowns follow from them):
+    the initial sensitivity and each step's factored Newton matrix and Jacobian;
+    :func:`_replay_sensitivity` makes it when the shooting iteration needs it, which a
+    cycle that is already periodic does not. Returns a status code. Residual and
+    Jacobian evaluations are counted in ``info`` (see :func:`_shoot`).
 
     ``guide`` (n_steps, n), used when ``use_guide``: one period of a nearby trajectory at
     the same steps (a nominal unit's steady state). Each step is
@@ -308,7 +310,7 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol, g
     piv = np.empty(n, dtype=np.int64)
     b = np.empty((n, 1))
     rhs = np.empty((n, nd))
-    s = np.zeros((n, nd))
+    tape_lu, tape_piv, tape_jac, tape_s0 = tape
     x = x0.copy()
 
     evaluate(x, 0.0, p, f_old, jac_old)
@@ -330,7 +332,7 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol, g
     _lu_solve(a, piv, rhs, n, nd)
     for i in range(n):
         for c in range(nd):
-            s[i, c] = rhs[i, c]
+            tape_s0[i, c] = rhs[i, c]
 
     for i in range(n):
         xs[0, i] = x[i]
@@ -404,20 +406,13 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol, g
             for j in range(n):
                 acc += jac_new[i, j] * b[j, 0]
             f_new[i] = acc
-        # sensitivity: A_new s_{k+1} = -B_old s_k, where A_new is the Newton matrix
-        # of the last iterate, already factored in ``a``
+        # the sensitivity's step, A_new s_{k+1} = -B_old s_k (A_new the Newton matrix of
+        # the last iterate, already factored in ``a``), goes on the tape
         for i in range(n):
-            for c in range(nd):
-                acc = 0.0
-                if m[i] > 0.0:
-                    acc = m[i] * s[i, c]
-                    for j in range(n):
-                        acc += 0.5 * h * jac_old[i, j] * s[j, c]
-                rhs[i, c] = acc
-        _lu_solve(a, piv, rhs, n, nd)
-        for i in range(n):
-            for c in range(nd):
-                s[i, c] = rhs[i, c]
+            tape_piv[k, i] = piv[i]
+            for j in range(n):
+                tape_lu[k, i, j] = a[i, j]
+                tape_jac[k, i, j] = jac_old[i, j]
         for i in range(n):
             x_prev3[i] = x_prev2[i]
             x_prev2[i] = x_prev[i]
@@ -427,10 +422,52 @@ def _one_cycle(p, x0, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol, g
             f_old[i] = f_new[i]
             for j in range(n):
                 jac_old[i, j] = jac_new[i, j]
+    return STATUS_OK
+
+
+@njit(cache=True)
+def _new_tape(n_steps, nd):
+    """What :func:`_one_cycle` records for the sensitivity: per step the factored Newton
+    matrix, its row swaps and the Jacobian at the step's start, and the initial
+    sensitivity (n, nd)."""
+    n = N_STATES
+    return (np.empty((n_steps, n, n)), np.empty((n_steps, n), dtype=np.int64),
+            np.empty((n_steps, n, n)), np.empty((n, nd)))
+
+
+@njit(cache=True)
+def _replay_sensitivity(p, n_steps, m, tape, nd, sens):
+    """d x(T) / d x0 (n, nd) of the cycle last recorded on ``tape``, into ``sens``.
+
+    The sensitivity of the trapezoidal step, ``A_new s_{k+1} = -B_old s_k`` with
+    ``B_old`` the rows ``-(M + h/2 J_old)`` of the differential unknowns (zero for the
+    algebraic ones), step by step from the initial sensitivity: the operations, in the
+    order, of computing it alongside the integration, done only for a cycle whose
+    periodicity residual calls for a shooting step (a spread sample's first cycle is
+    mostly periodic already: 4 in 5 at the default setting).
+    """
+    n = N_STATES
+    period = 2.0 * math.pi / p[P_OMEGA]
+    h = period / n_steps
+    tape_lu, tape_piv, tape_jac, tape_s0 = tape
+    s = tape_s0.copy()
+    rhs = np.empty((n, nd))
+    for k in range(n_steps):
+        for i in range(n):
+            for c in range(nd):
+                acc = 0.0
+                if m[i] > 0.0:
+                    acc = m[i] * s[i, c]
+                    for j in range(n):
+                        acc += 0.5 * h * tape_jac[k, i, j] * s[j, c]
+                rhs[i, c] = acc
+        _lu_solve(tape_lu[k], tape_piv[k], rhs, n, nd)
+        for i in range(n):
+            for c in range(nd):
+                s[i, c] = rhs[i, c]
     for i in range(n):
         for c in range(nd):
             sens[i, c] = s[i, c]
-    return STATUS_OK
 
 
 @njit(cache=True)
@@ -443,13 +480,13 @@ def _periodic_norm(x0, x1, idx, nd, scale):
 
 
 @njit(cache=True)
-def _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info, newton_rtol, guide,
+def _integrate(p, x, n_steps, m, scale, xs, tape, idx, nd, x_end, info, newton_rtol, guide,
                use_guide):
     """One cycle from ``x``; returns (status, periodicity norm) and fills ``x_end``.
 
     Predicted along ``guide`` when ``use_guide`` (see :func:`_one_cycle`).
     """
-    status = _one_cycle(p, x, n_steps, m, scale, xs, sens, idx, nd, info, newton_rtol,
+    status = _one_cycle(p, x, n_steps, m, scale, xs, tape, idx, nd, info, newton_rtol,
                         guide, use_guide)
     if status != STATUS_OK:
         return status, np.inf
@@ -509,6 +546,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols, guide, use_guide):
     idx = np.empty(n, dtype=np.int64)
     nd = _differential_unknowns(m, idx)
     sens = np.empty((n, nd))
+    tape = _new_tape(n_steps, nd)
     a = np.empty((nd, nd))
     b = np.empty((nd, 1))
     xt = np.empty(n)
@@ -521,13 +559,14 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols, guide, use_guide):
     vo_max = p[P_VO_MAX]
 
     x_end = np.empty(n)  # x(T) of the accepted iterate x
-    status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
+    status, norm = _integrate(p, x, n_steps, m, scale, xs, tape, idx, nd, x_end, info,
                                   newton_rtol, guide, use_guide)
     cycles += 1
     while status == STATUS_OK and norm >= rtol and cycles < MAX_SHOOTING_ITERATIONS:
         info[2] = norm
         # Newton direction on Phi(x) - x = 0; every path below ends by integrating the
-        # accepted x, so xs, sens and x_end belong to it here
+        # accepted x, so xs, the tape and x_end belong to it here
+        _replay_sensitivity(p, n_steps, m, tape, nd, sens)
         for r in range(nd):
             i = idx[r]
             for cc in range(nd):
@@ -551,7 +590,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols, guide, use_guide):
         if watch >= WATCHDOG_STEPS:
             for i in range(n):
                 x[i] = x_best[i]
-            status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
+            status, norm = _integrate(p, x, n_steps, m, scale, xs, tape, idx, nd, x_end, info,
                                   newton_rtol, guide, use_guide)
             cycles += 1
             watch = WATCHDOG_OFF
@@ -569,7 +608,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols, guide, use_guide):
             lam *= 0.5
             if not _consistent(xt, 0.0, p, m, scale, info):
                 continue
-            st, trial = _integrate(p, xt, n_steps, m, scale, xs, sens, idx, nd, xt_end, info,
+            st, trial = _integrate(p, xt, n_steps, m, scale, xs, tape, idx, nd, xt_end, info,
                                    newton_rtol, guide, use_guide)
             cycles += 1
             if st != STATUS_OK:
@@ -602,7 +641,7 @@ def _shoot(p, x0, n_steps, xs, out_probe, info, tols, guide, use_guide):
             if not _consistent(x, 0.0, p, m, scale, info):
                 status = STATUS_STEP_FAILED
                 break
-            status, norm = _integrate(p, x, n_steps, m, scale, xs, sens, idx, nd, x_end, info,
+            status, norm = _integrate(p, x, n_steps, m, scale, xs, tape, idx, nd, x_end, info,
                                   newton_rtol, guide, use_guide)
             cycles += 1
     info[1] = cycles
