@@ -28,6 +28,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ._records import frozen
 from .engine import layout
 from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, SteadyState, solve_periodic
 from .errors import InputError, SolverError, suggest
@@ -209,13 +210,13 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
         pq = pqs[b]
         labels = design.topology_impl.loss_labels()
         losses = {labels[k]: mean[j] for k, j in k_losses if abs(mean[j]) > 0.0 or k in always}
-        bal = Balance(
+        bal = frozen(Balance, dict(
             p_in_w=pq.p_w,
             delivered_w=mean[k_delivered],
             losses_w=float(sum(losses.values())),
             source_resistance_w=mean[k_source],
             storage_w=float(sum(mean[j] for j in k_storage)),
-        )
+        ))
         output = design.output
         regulated = design.has_linear_regulator
         if regulated:
@@ -228,7 +229,7 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
             v_cap_peak = vx_peak[b]
             v_cap_rms = vx_rms[b]
         results.append(
-            StateResult(
+            frozen(StateResult, dict(
                 state=state,
                 mains_factor=factor,
                 load_a=load_a,
@@ -255,7 +256,7 @@ def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
                 x_start=tuple(x_starts[b]),
                 x_cycle=sol.states[b],
                 range_warnings=_range_warnings(design, state, pq, inputs),
-            )
+            ))
         )
     return results
 

@@ -26,6 +26,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from .._records import frozen
 from .polyphase import system_phases
 from .spectrum import H_MAX, harmonic_table, phasors, phasors_vs_voltage, thd_pct
 
@@ -225,13 +226,13 @@ def power_quality_rows(v_v: np.ndarray, i_a: np.ndarray) -> list[PowerQuality]:
         s = vr * ir
         s1 = v1b * i1b
         i_h_rms = math.sqrt(max(ir * ir - i1b * i1b, 0.0))
-        out.append(PowerQuality(
+        out.append(frozen(PowerQuality, dict(
             v_rms_v=vr, i_rms_a=ir, i_peak_a=pk, crest_factor=pk / ir if ir > 0 else 0.0,
             p_w=pw, s_va=s, n_var=math.sqrt(max(s * s - pw * pw, 0.0)),
             v1_rms_v=v1b, i1_rms_a=i1b, p1_w=p1, q1_var=q1, s1_va=s1,
             d_i_var=v1b * i_h_rms, pf=pw / s if s > 0 else 1.0,
             dpf=p1 / s1 if s1 > 0 else 1.0, thd_i_pct=thd_i,
-            thd_v_pct=thd_v, i_dc_a=i_dc, i_h_a=ih_b, v_h_v=vh_b))
+            thd_v_pct=thd_v, i_dc_a=i_dc, i_h_a=ih_b, v_h_v=vh_b)))
     return out
 
 
