@@ -29,7 +29,7 @@ from __future__ import annotations
 import csv
 import math
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache, lru_cache
 from typing import Any
 
 from ._resources import data_dir
@@ -265,6 +265,38 @@ def _field_value(holder, field: str):
     return getattr(holder, field, None) if how == "attribute" else None
 
 
+@cache
+def _bounds(row_key: str) -> tuple[tuple[float, float], ...]:
+    """(low, high) [SI] of every warning row of ``row_key``."""
+    return tuple((r.low_si, r.high_si) for r in rows_for(row_key, "warn"))
+
+
+def _inside(value, bounds: tuple[tuple[float, float], ...]) -> bool:
+    """Whether ``value`` is inside every range (or not a number to check: no warning)."""
+    if value is None or not isinstance(value, (int, float)):
+        return True
+    for low, high in bounds:
+        if not low <= value <= high:
+            return False
+    return True
+
+
+@cache
+def _checks(mains_cls: type, parts_cls: type) -> tuple[tuple[str, int, str, tuple], ...]:
+    """(row key, holder 0 = mains / 1 = parts, field, bounds) of the input rows a design
+    with these mains and parts models can have (a field its model lacks is left out)."""
+    classes = (mains_cls, parts_cls)
+    out = []
+    for row_key, table, field in _input_rows():
+        which = 0 if table == "mains" else 1
+        cls = classes[which]
+        fields = getattr(cls, "model_fields", None)
+        if fields is not None and field not in fields and not hasattr(cls, field):
+            continue  # absent from this model: never a value to check
+        out.append((row_key, which, field, _bounds(row_key)))
+    return tuple(out)
+
+
 def design_warnings(design) -> tuple[RangeWarning, ...]:
     """Inputs of a validated design (its mains, parts and state loads) outside the range.
 
@@ -273,21 +305,29 @@ def design_warnings(design) -> tuple[RangeWarning, ...]:
     """
     out: list[RangeWarning] = []
     name = design.name
-    holders = {"mains": design.mains, "parts": design.parts}
-    for row_key, table, field in _input_rows():
-        out += _warn(row_key, row_key, _field_value(holders[table], field), name)
+    holders = (design.mains, design.parts)
+    for row_key, which, field, bounds in _checks(type(design.mains), type(design.parts)):
+        value = _field_value(holders[which], field)
+        if not _inside(value, bounds):  # checked first: run per solved design
+            out += _warn(row_key, row_key, value, name)
     for state, load in design.states.items():
         if not (isinstance(load, tuple) and len(load) == 2):
             continue  # a measured gadget's state is a file, not a load
+        current, power = design.load_current_a(state), design.load_power_w(state)
+        if _inside(current, _bounds("states.load_current")) and \
+                _inside(power, _bounds("states.load_power")):
+            continue
         key = f"states.{state}"
-        out += _warn(key, "states.load_current", design.load_current_a(state), name, state)
-        out += _warn(key, "states.load_power", design.load_power_w(state), name, state)
+        out += _warn(key, "states.load_current", current, name, state)
+        out += _warn(key, "states.load_power", power, name, state)
     return tuple(out)
 
 
 def result_warnings(design_name: str, state: str, i_rms_a: float,
                     p_w: float) -> tuple[RangeWarning, ...]:
     """A simulated state's line current [A] and input power [W] outside the range."""
+    if _inside(i_rms_a, _bounds("result.i_rms_a")) and _inside(p_w, _bounds("result.p_w")):
+        return ()  # the usual case, asked per solved case
     return tuple(_warn("result.i_rms_a", "result.i_rms_a", i_rms_a, design_name, state)
                  + _warn("result.p_w", "result.p_w", p_w, design_name, state))
 

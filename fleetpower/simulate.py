@@ -267,7 +267,8 @@ def _range_warnings(design: Design, state: str, pq: PowerQuality,
     (``inputs`` when already known) and the state's line current and input power."""
     if inputs is None:
         inputs = design_warnings(design)
-    return inputs + result_warnings(design.name, state, pq.i_rms_a, pq.p_w)
+    results = result_warnings(design.name, state, pq.i_rms_a, pq.p_w)
+    return inputs + results if results else inputs
 
 
 
