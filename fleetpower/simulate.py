@@ -414,8 +414,9 @@ def run(
         else:
             todo.setdefault(key, []).append(k)
     # the one dispatch on the kind of topology: direct ones give their figures themselves
-    for key in [k for k, idx in todo.items()
-                if not cases[idx[0]].design.topology_impl.simulated]:
+    simulated = {id(d): d.topology_impl.simulated for d in {id(c.design): c.design
+                                                             for c in cases}.values()}
+    for key in [k for k, idx in todo.items() if not simulated[id(cases[idx[0]].design)]]:
         idx = todo.pop(key)
         res = _direct_result(cases[idx[0]], samples_per_cycle)
         if cache is not None:
@@ -425,9 +426,11 @@ def run(
     if todo:
         first = [idx[0] for idx in todo.values()]
         rows, x0s = zip(*(engine_row(cases[k]) for k in first), strict=True)
+        x0 = np.array(x0s)
         if initial is not None:
-            x0s = tuple(np.asarray(initial[k], dtype=float) if initial[k] else x
-                        for k, x in zip(first, x0s, strict=True))
+            given = [r for r, k in enumerate(first) if initial[k]]
+            if given:
+                x0[given] = np.array([initial[first[r]] for r in given], dtype=float)
         labels = [f"{cases[k].design.name} / {cases[k].state} at "
                   f"{cases[k].mains_factor:.2f}x mains" for k in first]
         guide_rows = None
@@ -437,9 +440,8 @@ def run(
                 if guides[k] is not None:
                     guide_rows[r] = guides[k]
         try:
-            (sol,) = executor(solve_batch, [Batch(np.array(rows), np.array(x0s),
-                                                  samples_per_cycle, labels, coarse_start,
-                                                  periodic_rtol, guide_rows)])
+            (sol,) = executor(solve_batch, [Batch(np.array(rows), x0, samples_per_cycle, labels,
+                                                  coarse_start, periodic_rtol, guide_rows)])
         except SolverError as exc:
             raise _explained(exc, [cases[k].design for k in first]) from None
         solved = _state_results([cases[k] for k in first], sol)
