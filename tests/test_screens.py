@@ -209,3 +209,18 @@ def test_phase_warnings_said_once():
 
     got = _merge_phases(["phase L1: K is low", "other", "phase L2: K is low", "phase L3: x"])
     assert got == ["phases L1, L2: K is low", "other", "phase L3: x"]
+
+
+def test_readme_demo_sample_is_the_demo_screen():
+    # README's "trimmed sample of `fleetpower demo` (80 columns)": every line of it is a
+    # line of the demo's screen at 80 columns, rendered from the demo's golden JSON (which
+    # tests/test_golden.py checks against a real run): the project's rule that samples come
+    # from real runs. It had kept figures from before P was measured at the terminals.
+    readme = (Path(__file__).parent.parent / "README.md").read_text(encoding="utf-8")
+    start = readme.index("A trimmed sample of `fleetpower demo` (80 columns):")
+    block = readme[start:].split("```")[1]
+    screen = {line.rstrip() for line in _render(render_compare, _dict("demo"), 80).splitlines()}
+    sample = [line.rstrip() for line in block.splitlines()
+              if line.strip() and line.strip() != "..."]
+    missing = [line for line in sample if line not in screen]
+    assert len(sample) > 40 and not missing, missing
