@@ -60,14 +60,20 @@ def test_write_atomic_writes_text_bytes_and_a_writer(tmp_path):
     assert _leftovers(tmp_path) == [] and _leftovers(tmp_path / "sub") == []
 
 
-def test_write_atomic_gives_the_permissions_open_would(tmp_path):
+@pytest.mark.parametrize("mask", [0o022, 0o027, 0o077])
+def test_write_atomic_gives_the_permissions_open_would(tmp_path, mask):
     # mkstemp makes 0600; a written report must be as readable as one open() makes
-    umask = os.umask(0o022)
+    # (POSIX: open() creates with 0666 & ~umask), and the umask is read, not changed
+    umask = os.umask(mask)
     try:
+        with open(tmp_path / "by-open.md", "w") as fh:
+            fh.write("x")
         write_atomic(tmp_path / "r.md", "x")
+        assert os.umask(mask) == mask
     finally:
         os.umask(umask)
-    assert stat.S_IMODE((tmp_path / "r.md").stat().st_mode) == 0o644
+    made = stat.S_IMODE((tmp_path / "by-open.md").stat().st_mode)
+    assert stat.S_IMODE((tmp_path / "r.md").stat().st_mode) == made == 0o666 & ~mask
 
 
 @pytest.mark.parametrize("exc", [KeyboardInterrupt, RuntimeError, OSError])

@@ -96,6 +96,23 @@ def _commit(tmp: str, path: Path, overwrite: bool, option: str) -> None:
     os.unlink(tmp)
 
 
+def _current_umask() -> int:
+    """The process's file-creation mask, read without changing it where the system says
+    it (Linux: ``/proc/self/status``, since kernel 4.7); else by setting and restoring it,
+    which another thread creating a file in between would see (the command line writes
+    from one thread)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError):
+        pass
+    umask = os.umask(0)
+    os.umask(umask)
+    return umask
+
+
 def write_atomic(path: str | Path, data: str | bytes | Callable[[BinaryIO], None], *,
                  overwrite: bool = True, option: str = "") -> None:
     """Write ``data`` to ``path`` atomically: never a half-written file.
@@ -134,8 +151,7 @@ def write_atomic(path: str | Path, data: str | bytes | Callable[[BinaryIO], None
     tmp = None
     try:
         fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=temp_prefix(path))
-        umask = os.umask(0)
-        os.umask(umask)
+        umask = _current_umask()
         with os.fdopen(fd, "wb") as fh:
             os.fchmod(fh.fileno(), 0o666 & ~umask)  # mkstemp makes 0600; match open()
             _write_all(fh, data)
