@@ -424,8 +424,9 @@ def _compare_outputs(args) -> dict[str, list[Path]]:
     paths: dict[str, list[Path]] = {}
     if args.csv:
         out = Path(args.csv)
+        # named as compare labels a candidate: its file's resolved name (a symlink's target)
         paths["--csv"] = [out / "designs.csv"] + [
-            out / f"groups_{chr(ord('A') + k)}_{Path(d).stem}.csv"
+            out / f"groups_{chr(ord('A') + k)}_{Path(d).resolve().stem}.csv"
             for k, d in enumerate(args.design)]
     if args.markdown:
         paths["--markdown"] = [Path(args.markdown)]

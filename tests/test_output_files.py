@@ -220,6 +220,24 @@ def test_compare_outputs_existing_are_refused_before_solving(tmp_path, monkeypat
     assert taken.read_text(encoding="utf-8") == "mine\n"
 
 
+def test_compare_csv_of_a_symlinked_design_is_checked_before_solving(tmp_path, monkeypatch):
+    # compare labels a candidate by its file's resolved name, so its groups file is named
+    # after a symlink's target: the early check must predict that name too
+    import fleetpower.compare
+
+    link = tmp_path / "my-pick.toml"
+    link.symlink_to(example_path("desk-sensor-smps-230"))
+    taken = tmp_path / "tables" / "groups_A_desk-sensor-smps-230.csv"
+    taken.parent.mkdir()
+    taken.write_text("mine\n", encoding="utf-8")
+    monkeypatch.setattr(fleetpower.compare, "compare", _must_not_run)
+    code, _, err = _run("compare", example_path("harbour-office"), "--design", link,
+                        "--csv", tmp_path / "tables")
+    assert code == 2
+    _refused(err, taken)
+    assert taken.read_text(encoding="utf-8") == "mine\n"
+
+
 def test_demo_markdown_existing_is_refused(tmp_path, monkeypatch):
     import fleetpower.compare
 
