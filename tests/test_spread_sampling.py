@@ -163,10 +163,15 @@ def test_failure_fractions_and_worst_sample():
     assert s.failure_fractions()["p_limit"] == pytest.approx(2 / 5)  # counted by hand
     assert s.worst("p_w") == (11, 0.5)
     assert s.worst("p_w", largest=False) == (0, 0.1)
+    assert s.alike("p_w") == 1
     # numpy's percentile of the same five values (linear interpolation, Hyndman-Fan 7)
     assert s.percentiles().loc["p_w", "p50"] == np.percentile([0.1, 0.4, 0.2, 0.5, 0.3], 50)
     with pytest.raises(ValueError):
         s.add(0, {"p_w": np.array([1.0])})
+    # units equal to rounding (1e-13 apart): the first is named, the others counted alike
+    s.add(20, {"p_w": np.array([0.5 * (1 + 1e-13), 0.5 - 1e-6])},
+          {"p_limit": np.array([True, False])})
+    assert s.worst("p_w") == (20, 0.5 * (1 + 1e-13)) and s.alike("p_w") == 2
 
 
 def test_flags_keep_their_meaning_whatever_order_chunks_arrive_in():

@@ -59,7 +59,8 @@ def spread_to_dict(result: SpreadResult) -> dict:
                 idx, value = st.worst(name, largest=high)
                 worst.append({"group": group, "quantity": quantity,
                               "end": "max" if high else "min", "value": _num(value),
-                              "unit": result.label(idx), "values": result.sample_values(idx)})
+                              "unit": result.label(idx), "values": result.sample_values(idx),
+                              "alike": st.alike(name, largest=high)})
     fails = st.failure_fractions() if result.done else {}
     failing = []
     for name, frac in (fails.items() if len(fails) else []):
@@ -184,7 +185,9 @@ def render_spread(report: dict, console) -> None:
             t.add_column(col, overflow="fold", justify="right" if col == "value" else "left")
         for r in report["worst"]:
             label, unit = key_label_unit(r["quantity"])
-            t.add_row(r["group"], label, r["end"], _fmt(r["value"], unit), r["unit"])
+            # the first of several units alike (to rounding) says so
+            alike = f" (+{r['alike'] - 1:,} alike)" if r["alike"] > 1 else ""
+            t.add_row(r["group"], label, r["end"], _fmt(r["value"], unit), r["unit"] + alike)
         console.print(t)
     ag = report["ageing"]
     if ag:

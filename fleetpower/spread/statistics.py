@@ -20,6 +20,11 @@ if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is 
 DEFAULT_PERCENTILES = (5.0, 50.0, 95.0)
 
 
+#: samples whose figure is within this relative distance of the extreme are alike (the
+#: figures carry the solver's rounding, ~1e-12): the same tie as fleet.TIE_RTOL
+ALIKE_RTOL = 1e-9
+
+
 class SpreadStatistics:
     """Accumulates per-sample scalars and failure flags of a spread run.
 
@@ -138,3 +143,13 @@ class SpreadStatistics:
             raise ValueError(f"no samples of {name!r} recorded")
         j = int(np.nanargmax(v) if largest else np.nanargmin(v))
         return int(self.sample_indices()[j]), float(v[j])
+
+    def alike(self, name: str, largest: bool = True) -> int:
+        """How many recorded samples share the extreme :meth:`worst` names (within
+        :data:`ALIKE_RTOL` of it: rounding), the named one included: more than one means
+        it is the first of equals (every unit in regulation holds the same output)."""
+        v = self.values(name)
+        if not v.size:
+            raise ValueError(f"no samples of {name!r} recorded")
+        end = np.nanmax(v) if largest else np.nanmin(v)
+        return int(np.sum(np.abs(v - end) <= ALIKE_RTOL * abs(end)))
