@@ -34,30 +34,10 @@ from .pq.ieee1459 import power_totals
 from .pq.polyphase import neutral_current, rms_from_spectrum, sum_iec61000_3_6, to_common_frame
 from .pq.spectrum import H_MAX, thd_pct
 from .simulate import Case, StateResult, run
+from .ties import first_largest, first_smallest
 
 DAYS_PER_YEAR = 365.0
 MONTHS_PER_YEAR = 12
-
-
-#: figures of cases (or states) within this relative distance of the largest are a tie,
-#: and the first of them wins: figures from the engine carry rounding of ~1e-12, and a
-#: named worst case, peak hour or heaviest state must not flip on rounding
-TIE_RTOL = 1e-9
-
-
-def first_largest(values, axis=None):
-    """Index of the largest of ``values`` (along ``axis``; flat when None), the first of
-    those within :data:`TIE_RTOL` of it on a tie: ``np.argmax`` made stable to rounding."""
-    a = np.asarray(values, dtype=float)
-    top = np.max(a, axis=axis, keepdims=axis is not None)
-    with np.errstate(invalid="ignore"):  # -inf entries (impossible states) stay out
-        near = a >= top - TIE_RTOL * np.abs(top)
-    return np.argmax(near, axis=axis)
-
-
-def first_smallest(values, axis=None):
-    """:func:`first_largest` of the smallest."""
-    return first_largest(-np.asarray(values, dtype=float), axis=axis)
 
 
 # ----------------------------------------------------------------------------------

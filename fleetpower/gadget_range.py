@@ -234,35 +234,9 @@ def _warn(key: str, row_key: str, value: float | None, design: str,
     if value is None or not isinstance(value, (int, float)):
         return []
     value = float(value)
-    rows = rows_for(row_key, "warn")
-    for row in rows:
-        if not row.low_si <= value <= row.high_si:
-            break
-    else:  # inside every row: the usual case, asked per solved case
-        return []
     return [RangeWarning(key, row.quantity, value, row.low_si, row.high_si, row.unit,
                          row.reason, row.provenance, design, state)
-            for row in rows if not row.contains(value)]
-
-
-#: per (model class, field): how the field is read: "stored" in the instance's
-#: ``__dict__`` (a pydantic field), an "attribute" of the class (a property), or "absent"
-_HOW: dict[tuple[type, str], str] = {}
-
-
-def _field_value(holder, field: str):
-    """``getattr(holder, field, None)``, without pydantic's slow path for the fields a
-    part model does not have (asked of every design in a spread)."""
-    cls = type(holder)
-    how = _HOW.get((cls, field))
-    if how is None:
-        fields = getattr(cls, "model_fields", None)  # None: not a pydantic model
-        how = _HOW[(cls, field)] = (
-            "attribute" if fields is None or hasattr(cls, field)
-            else "stored" if field in fields else "absent")
-    if how == "stored":
-        return holder.__dict__.get(field)
-    return getattr(holder, field, None) if how == "attribute" else None
+            for row in rows_for(row_key, "warn") if not row.contains(value)]
 
 
 @cache
@@ -282,18 +256,22 @@ def _inside(value, bounds: tuple[tuple[float, float], ...]) -> bool:
 
 
 @cache
-def _checks(mains_cls: type, parts_cls: type) -> tuple[tuple[str, int, str, tuple], ...]:
-    """(row key, holder 0 = mains / 1 = parts, field, bounds) of the input rows a design
-    with these mains and parts models can have (a field its model lacks is left out)."""
+def _checks(mains_cls: type, parts_cls: type) -> tuple[tuple[str, int, str, bool, tuple], ...]:
+    """(row key, holder 0 = mains / 1 = parts, field, stored, bounds) of the input rows a
+    design with these mains and parts models can have: a field its pydantic model lacks
+    is left out, and one it stores is read from the instance's ``__dict__`` (``stored``),
+    without pydantic's attribute path (asked of every design in a spread); a property, or
+    any field of a holder that is not a pydantic model, is read as an attribute."""
     classes = (mains_cls, parts_cls)
     out = []
     for row_key, table, field in _input_rows():
         which = 0 if table == "mains" else 1
         cls = classes[which]
-        fields = getattr(cls, "model_fields", None)
-        if fields is not None and field not in fields and not hasattr(cls, field):
+        fields = getattr(cls, "model_fields", None)  # None: not a pydantic model
+        attribute = fields is None or hasattr(cls, field)
+        if not attribute and field not in fields:
             continue  # absent from this model: never a value to check
-        out.append((row_key, which, field, _bounds(row_key)))
+        out.append((row_key, which, field, not attribute, _bounds(row_key)))
     return tuple(out)
 
 
@@ -306,8 +284,10 @@ def design_warnings(design) -> tuple[RangeWarning, ...]:
     out: list[RangeWarning] = []
     name = design.name
     holders = (design.mains, design.parts)
-    for row_key, which, field, bounds in _checks(type(design.mains), type(design.parts)):
-        value = _field_value(holders[which], field)
+    for row_key, which, field, stored, bounds in _checks(type(design.mains),
+                                                          type(design.parts)):
+        holder = holders[which]
+        value = holder.__dict__.get(field) if stored else getattr(holder, field, None)
         if not _inside(value, bounds):  # checked first: run per solved design
             out += _warn(row_key, row_key, value, name)
     for state, load in design.states.items():

@@ -545,7 +545,7 @@ def test_worst_case_ties_go_to_the_first_case_not_to_rounding():
     # agree to rounding (1e-12 from the engine) are a tie and the first case wins, so a
     # label cannot flip when an unrelated change moves the last digits (common practice,
     # no source). A real difference (1e-6) still decides.
-    from fleetpower.fleet import TIE_RTOL, first_largest, first_smallest
+    from fleetpower.ties import TIE_RTOL, first_largest, first_smallest
 
     assert first_largest([1.0, 1.0 + 1e-13, 0.5]) == 0
     assert first_largest([1.0 + 1e-13, 1.0, 0.5]) == 0

@@ -13,16 +13,13 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ..ties import alike
+
 if TYPE_CHECKING:  # pragma: no cover  (pandas is imported where a DataFrame is built)
     import pandas as pd
 
 #: percentiles reported by default [%]
 DEFAULT_PERCENTILES = (5.0, 50.0, 95.0)
-
-
-#: samples whose figure is within this relative distance of the extreme are alike (the
-#: figures carry the solver's rounding, ~1e-12): the same tie as fleet.TIE_RTOL
-ALIKE_RTOL = 1e-9
 
 
 class SpreadStatistics:
@@ -145,11 +142,10 @@ class SpreadStatistics:
         return int(self.sample_indices()[j]), float(v[j])
 
     def alike(self, name: str, largest: bool = True) -> int:
-        """How many recorded samples share the extreme :meth:`worst` names (within
-        :data:`ALIKE_RTOL` of it: rounding), the named one included: more than one means
-        it is the first of equals (every unit in regulation holds the same output)."""
+        """How many recorded samples share the extreme :meth:`worst` names (to rounding,
+        :func:`fleetpower.ties.alike`), the named one included: more than one means it is
+        the first of equals (every unit in regulation holds the same output)."""
         v = self.values(name)
         if not v.size:
             raise ValueError(f"no samples of {name!r} recorded")
-        end = np.nanmax(v) if largest else np.nanmin(v)
-        return int(np.sum(np.abs(v - end) <= ALIKE_RTOL * abs(end)))
+        return alike(v, largest)
