@@ -28,6 +28,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ._heap import frozen_during
 from ._records import frozen
 from .engine import layout
 from .engine.solver import DEFAULT_SAMPLES_PER_CYCLE, SteadyState, solve_periodic
@@ -371,6 +372,7 @@ def engine_row(case: Case) -> tuple[np.ndarray, np.ndarray]:
     return d.topology_impl.engine_row(d, case.state, case.mains_factor, case.load_a)
 
 
+@frozen_during
 def run(
     cases: list[Case],
     samples_per_cycle: int = DEFAULT_SAMPLES_PER_CYCLE,

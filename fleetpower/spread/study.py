@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .. import simulate as sim
+from .._heap import frozen_during
 from ..errors import InputError, SolverError
 from ..executors import Executor, chunk_ranges, local_executor
 from ..gadget_range import RangeWarning, unique
@@ -434,6 +435,7 @@ def _solve_units(designs: list[Design], warm, samples_per_cycle, periodic_rtol=N
     return out
 
 
+@frozen_during
 def evaluate_chunk(plan: SpreadPlan, bounds: tuple[int, int]) -> ChunkOutcome:
     """Solve the samples ``bounds`` = (start, stop) of a run as one batch; keep scalars.
 
@@ -563,6 +565,7 @@ def ageing_rate(design: Design) -> float:
     return loss_rate_per_year(base)
 
 
+@frozen_during
 def evaluate_ageing_chunk(plan: SpreadPlan, years: tuple[int, ...], rate: float,
                           bounds: tuple[int, int]) -> tuple[int, np.ndarray, np.ndarray]:
     """Heaviest state of samples ``bounds`` at every year, in one batch.
