@@ -78,7 +78,6 @@ from .layout import (
     CAPACITIVE_DROPPER,
     HALF_WAVE,
     MAINS_TRANSFORMER,
-    N_PROBES,
     N_STATES,
     P_C1,
     P_CO,
@@ -278,9 +277,11 @@ def jacobian(x, t, p, jac):
     evaluate(x, t, p, np.empty(N_STATES), jac)
 
 
-@njit(cache=True)
-def probes(x, t, p, out):
-    """Record the instantaneous quantities named in :data:`PROBES` into ``out``."""
+@njit(cache=True, inline="always")
+def probes(x, t, p, out, k):
+    """Record the instantaneous quantities named in :data:`PROBES` at sample ``k`` of
+    ``out`` (N_PROBES, n): ``out[j, k]`` is probe j. Probes a circuit family does not
+    have are left as they are (the caller zeroes ``out`` once per cycle)."""
     topo = int(p[P_TOPO])
     rect = int(p[P_RECT])
     vc1 = x[S_VC1]
@@ -289,27 +290,25 @@ def probes(x, t, p, out):
     i_s = x[S_IS]
     w = p[P_OMEGA]
     vs = p[P_VPK] * math.sin(w * t)
-    for k in range(N_PROBES):
-        out[k] = 0.0
 
     i_line = i_s
     if topo == RECTIFIER_SMPS:
         i_x = p[P_CX] * p[P_VPK] * w * math.cos(w * t)
         i_bl = vs / p[P_RB]
         i_line = i_s + i_x + i_bl
-        out[PR_P_BLEEDER] = vs * i_bl
-        out[PR_P_STORE_CX] = vs * i_x
+        out[PR_P_BLEEDER, k] = vs * i_bl
+        out[PR_P_STORE_CX, k] = vs * i_x
     elif topo == MAINS_TRANSFORMER:
         i_m = -p[P_VPK] / (w * p[P_LM]) * math.cos(w * t)
         i_c = vs / p[P_RC]
         i_line = i_s + i_m + i_c
-        out[PR_P_CORE] = vs * i_c
-        out[PR_P_STORE_LM] = vs * i_m
+        out[PR_P_CORE, k] = vs * i_c
+        out[PR_P_STORE_LM, k] = vs * i_m
     elif topo == CAPACITIVE_DROPPER:
-        out[PR_P_BLEEDER] = vc1 * vc1 / p[P_RB]
-        out[PR_P_STORE_C1] = vc1 * (i_s - vc1 / p[P_RB])
-    out[PR_I_LINE] = i_line
-    out[PR_V_SOURCE] = vs
+        out[PR_P_BLEEDER, k] = vc1 * vc1 / p[P_RB]
+        out[PR_P_STORE_C1, k] = vc1 * (i_s - vc1 / p[P_RB])
+    out[PR_I_LINE, k] = i_line
+    out[PR_V_SOURCE, k] = vs
     # the series row's L di/dt (the residual's f[S_IS]; zero when L_src = 0)
     l_di_dt = vs - (p[P_RSER] + p[P_RSRC]) * i_s - vc1 - va
     # the supply's terminals: the source EMF less the drop across the mains' own source
@@ -318,10 +317,10 @@ def probes(x, t, p, out):
     v_term = vs - p[P_RSRC] * i_s
     if p[P_LSRC] > 0.0:
         v_term -= p[P_LMAINS] / p[P_LSRC] * l_di_dt
-    out[PR_V_TERMINAL] = v_term
-    out[PR_P_SERIES] = p[P_RSER] * i_s * i_s
-    out[PR_P_SOURCE_R] = p[P_RSRC] * i_s * i_s
-    out[PR_P_STORE_L] = l_di_dt * i_s if p[P_LSRC] > 0.0 else 0.0
+    out[PR_V_TERMINAL, k] = v_term
+    out[PR_P_SERIES, k] = p[P_RSER] * i_s * i_s
+    out[PR_P_SOURCE_R, k] = p[P_RSRC] * i_s * i_s
+    out[PR_P_STORE_L, k] = l_di_dt * i_s if p[P_LSRC] > 0.0 else 0.0
 
     if topo == RECTIFIER_SMPS:
         i_load = _load_iv(vo, p)[0]
@@ -335,33 +334,33 @@ def probes(x, t, p, out):
     if rect == HALF_WAVE:
         i_d = diode_iv(vr - vo, p[P_D_IS], p[P_D_NVT])[0]
         i_reservoir = i_d - i_load
-        out[PR_P_RECTIFIER] = (vr - vo) * i_d
+        out[PR_P_RECTIFIER, k] = (vr - vo) * i_d
         if zener:
             iz = _zener_iv(va, p)[0]
-            out[PR_P_ZENER] = va * iz
-            out[PR_I_ZENER] = iz
+            out[PR_P_ZENER, k] = va * iz
+            out[PR_I_ZENER, k] = iz
     else:
         i1 = diode_iv(0.5 * (vr - vo), p[P_D_IS], p[P_D_NVT])[0]
         i2 = diode_iv(0.5 * (-vr - vo), p[P_D_IS], p[P_D_NVT])[0]
         i_reservoir = i1 + i2 - i_load
-        out[PR_P_RECTIFIER] = (vr - vo) * i1 + (-vr - vo) * i2
+        out[PR_P_RECTIFIER, k] = (vr - vo) * i1 + (-vr - vo) * i2
         if zener:
             iz = _zener_iv(vo, p)[0]
             i_reservoir -= iz
-            out[PR_P_ZENER] = vo * iz
-            out[PR_I_ZENER] = iz
-    out[PR_P_STORE_RESERVOIR] = vo * i_reservoir  # v_o C_o dv_o/dt
+            out[PR_P_ZENER, k] = vo * iz
+            out[PR_I_ZENER, k] = iz
+    out[PR_P_STORE_RESERVOIR, k] = vo * i_reservoir  # v_o C_o dv_o/dt
 
     p_load = vo * i_load
     if topo == RECTIFIER_SMPS:
-        out[PR_P_DELIVERED] = p[P_ETA] * p_load
-        out[PR_P_CONVERTER] = p_load - out[PR_P_DELIVERED]
-        out[PR_V_OUT] = vo
+        out[PR_P_DELIVERED, k] = p[P_ETA] * p_load
+        out[PR_P_CONVERTER, k] = p_load - out[PR_P_DELIVERED, k]
+        out[PR_V_OUT, k] = vo
     else:
         v_out = p[P_VOUT] * share
-        out[PR_P_DELIVERED] = v_out * p[P_ILOAD] * share
-        out[PR_P_REG_QUIESCENT] = vo * p[P_IQ] * soft_on
-        out[PR_P_REG_PASS] = p_load - out[PR_P_DELIVERED] - out[PR_P_REG_QUIESCENT]
-        out[PR_V_OUT] = v_out
-    out[PR_V_C1] = vc1
-    out[PR_V_O] = vo
+        out[PR_P_DELIVERED, k] = v_out * p[P_ILOAD] * share
+        out[PR_P_REG_QUIESCENT, k] = vo * p[P_IQ] * soft_on
+        out[PR_P_REG_PASS, k] = p_load - out[PR_P_DELIVERED, k] - out[PR_P_REG_QUIESCENT, k]
+        out[PR_V_OUT, k] = v_out
+    out[PR_V_C1, k] = vc1
+    out[PR_V_O, k] = vo
