@@ -277,7 +277,7 @@ def jacobian(x, t, p, jac):
     evaluate(x, t, p, np.empty(N_STATES), jac)
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True)
 def probes(x, t, p, out, k):
     """Record the instantaneous quantities named in :data:`PROBES` at sample ``k`` of
     ``out`` (N_PROBES, n): ``out[j, k]`` is probe j. Probes a circuit family does not
