@@ -137,13 +137,13 @@ def test_spread_report_states_its_accuracy_and_steps_is_an_option(tmp_path, cli)
     assert rc_ == 2 and "--steps" in err and len(err.strip().splitlines()) == 1
 
 
-@pytest.mark.parametrize(("samples", "quadratic"), [(40, False), (300, True)])
-def test_fitted_warm_start_changes_the_cost_not_the_answer(samples, quadratic):
+@pytest.mark.parametrize(("samples", "order"), [(40, 1), (300, 2), (400, 3)])
+def test_fitted_warm_start_changes_the_cost_not_the_answer(samples, order):
     # the fit only moves where each solve starts: figures equal to the periodicity
     # tolerance's effect (a stored-energy change of ~5e-5 of P; DEVELOPERS.md)
     d = design_from_dict(build_design("desk-sensor-dropper-lean"), "lean.toml")
     plan = plan_spread(d, samples=samples, seed=5, check_limits=False)
-    assert plan.warm_fit is not None and plan.warm_fit.quadratic is quadratic
+    assert plan.warm_fit is not None and plan.warm_fit.order == order
     fitted = evaluate_chunk(plan, (0, 20))
     nominal = evaluate_chunk(dataclasses.replace(plan, warm_fit=None), (0, 20))
     for name in ("active|p_w", "idle|i_rms_a", "active|v_dc_min_v"):

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import dataclasses
 import functools
+import itertools
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -190,9 +191,13 @@ def _warm_start(design: Design, samples_per_cycle: int, nominal=None
 #: pilot samples the warm-start fit is made on: at least this many, and at least two per
 #: fitted coefficient
 PILOT_SAMPLES = 16
-#: the quadratic fit is made when its pilots are at most this fraction of the run (else the
-#: linear one): its pilots are solved twice, once from the nominal to fit on
+#: a fit beyond the linear one (quadratic, or cubic in a few values) is made when its
+#: pilots are at most this fraction of the run (else the next lower order): its pilots
+#: are solved twice, once from the nominal to fit on
 QUADRATIC_PILOT_SHARE = 0.25
+#: the cubic fit adds every third-order product of this many toleranced values: those the
+#: pilots' quadratic fit finds most curved (a full cubic in 7 values has 120 coefficients)
+CUBIC_VALUES = 3
 
 
 def _deviations(spreads, values: np.ndarray) -> np.ndarray:
@@ -202,26 +207,65 @@ def _deviations(spreads, values: np.ndarray) -> np.ndarray:
     return np.column_stack([np.ones(len(rel)), rel])
 
 
-def _features(u: np.ndarray, quadratic: bool) -> np.ndarray:
-    """The fit's regressors: [1, u_i] and, if ``quadratic``, every u_i u_j (i <= j)."""
-    if not quadratic:
+def _pairs(k: int) -> list[tuple[int, int]]:
+    """Columns (of [1, u_1 .. u_k]) of every second-order product u_i u_j, i <= j."""
+    return [(i, j) for i in range(1, k + 1) for j in range(i, k + 1)]
+
+
+def _features(u: np.ndarray, order: int, cubic: tuple[int, ...] = ()) -> np.ndarray:
+    """The fit's regressors: [1, u_i]; from order 2 every u_i u_j (i <= j); at order 3
+    also every u_a u_b u_c (a <= b <= c) of the columns ``cubic``."""
+    if order < 2:
         return u
-    k = u.shape[1] - 1
-    products = [u[:, i] * u[:, j] for i in range(1, k + 1) for j in range(i, k + 1)]
+    products = [u[:, i] * u[:, j] for i, j in _pairs(u.shape[1] - 1)]
+    if order >= 3:
+        products += [u[:, a] * u[:, b] * u[:, c]
+                     for a, b, c in itertools.combinations_with_replacement(cubic, 3)]
     return np.column_stack([u, *products])
 
 
-def _n_features(k: int, quadratic: bool) -> int:
-    return 1 + k + (k * (k + 1) // 2 if quadratic else 0)
+def _n_features(k: int, order: int) -> int:
+    n = 1 + k + (k * (k + 1) // 2 if order >= 2 else 0)
+    if order >= 3:
+        m = min(CUBIC_VALUES, k)
+        n += m * (m + 1) * (m + 2) // 6
+    return n
 
 
-def _pilot_size(n: int, k: int) -> tuple[int, bool | None]:
-    """Pilot samples and whether the fit is quadratic (None: no fit, too few samples)."""
-    quad = max(PILOT_SAMPLES, 2 * _n_features(k, True))
-    if quad <= QUADRATIC_PILOT_SHARE * n:
-        return quad, True
-    lin = max(PILOT_SAMPLES, 2 * _n_features(k, False))
-    return (lin, False) if lin <= n else (0, None)
+def _pilot_size(n: int, k: int) -> tuple[int, int | None]:
+    """Pilot samples and the fit's order: 3 (quadratic and cubic in :data:`CUBIC_VALUES`
+    values), 2 or 1 (None: no fit, too few samples)."""
+    for order in (3, 2):
+        m = max(PILOT_SAMPLES, 2 * _n_features(k, order))
+        if m <= QUADRATIC_PILOT_SHARE * n:
+            return m, order
+    lin = max(PILOT_SAMPLES, 2 * _n_features(k, 1))
+    return (lin, 1) if lin <= n else (0, None)
+
+
+def _most_curved(u: np.ndarray, xs: list[np.ndarray], count: int) -> tuple[int, ...]:
+    """The ``count`` columns of ``u`` (1..k) along which the settled unknowns ``xs`` (per
+    case, (samples, 4)) bend most: by the quadratic fit's second-order terms, each term's
+    coefficient times the spread of its factors over the spread of the unknown (the
+    largest of the four unknowns), summed over the terms a value appears in and over the
+    cases. Third-order terms are largest
+    where the second-order ones are; the linear terms say nothing of that (a sample's
+    reservoir voltage follows its zener's almost linearly). Ties: the earlier column."""
+    k = u.shape[1] - 1
+    a = _features(u, 2)
+    su = u[:, 1:].std(axis=0)
+    curved = np.zeros(k)
+    for x in xs:
+        fit, *_ = np.linalg.lstsq(a, x, rcond=None)
+        sx = x.std(axis=0)
+        sx = np.where(sx > 0.0, sx, 1.0)
+        for n, (i, j) in enumerate(_pairs(k)):
+            w = float(np.max(np.abs(fit[1 + k + n]) / sx)) * su[i - 1] * su[j - 1]
+            curved[i - 1] += w
+            if j != i:
+                curved[j - 1] += w
+    order = np.argsort(-curved, kind="stable")[:count]
+    return tuple(sorted(int(c) + 1 for c in order))
 
 
 @dataclass(frozen=True)
@@ -229,44 +273,48 @@ class WarmFit:
     """Per case of a sample, the least-squares fit of the settled unknowns at t = 0 on the
     sample's relative deviations from the nominals (see :func:`_warm_fit`)."""
 
-    quadratic: bool
+    #: 1 linear, 2 quadratic, 3 quadratic and cubic in the values ``cubic``
+    order: int
     #: per case, shape (features, 4)
     coefficients: tuple[np.ndarray, ...]
+    #: columns of the deviations (1..k, in the order of the plan's spreads) whose
+    #: third-order products are fitted (order 3)
+    cubic: tuple[int, ...] = ()
 
     def predict(self, spreads, values: np.ndarray) -> list[np.ndarray]:
-        a = _features(_deviations(spreads, values), self.quadratic)
+        a = _features(_deviations(spreads, values), self.order, self.cubic)
         return [a @ c for c in self.coefficients]
 
 
 def _warm_fit(design: Design, spreads, n: int, values_of, warm, samples_per_cycle: int,
               periodic_rtol, guides=()) -> WarmFit | None:
     """Per case, the least-squares fit of the pilot samples' settled unknowns on their
-    deviations: quadratic (every square and product) when the run is large enough to pay
-    for its pilots, else linear; a model of the solution around the nominal.
+    deviations: cubic in the :data:`CUBIC_VALUES` most curved values and quadratic in all
+    when the run is large enough to pay for its pilots, else quadratic, else linear; a
+    model of the solution around the nominal.
 
     Started from it, a sample's first cycle is within the fit's residual of its fixed
-    point: with the quadratic fit, 3 in 4 of the lean desk-sensor dropper's samples are
-    periodic to 1e-6 after one cycle (the linear fit: 1.5 %; the nominal's own start took
-    three cycles on average and up to 25 near a zener's knee; DEVELOPERS.md "Accuracy per
-    cost"). It changes where each solve starts, not where it ends (the same fixed point to
-    the periodicity tolerance); it depends only on the plan, so any chunking gives the
-    same samples.
+    point: with the cubic fit (92 pilots), 98 % of the lean desk-sensor dropper's samples
+    are periodic to 1e-6 after one cycle (the quadratic fit, 72 pilots: 78 %; the linear
+    fit: 1.5 %; the nominal's own start took three cycles on average and up to 25 near a
+    zener's knee; DEVELOPERS.md "Accuracy per cost"). It changes where each solve starts,
+    not where it ends (the same fixed point to the periodicity tolerance); it depends only
+    on the plan, so any chunking gives the same samples.
     """
-    m, quadratic = _pilot_size(n, len(spreads))
-    if not warm or quadratic is None:
+    m, order = _pilot_size(n, len(spreads))
+    if not warm or order is None:
         return None
     values = values_of(0, m)
     designs = [sample_design(design, spreads, r) for r in values]
     solved = _solve_units(designs, warm, samples_per_cycle, periodic_rtol, guides=guides)
     if any(r is None for r in solved):
         return None
-    a = _features(_deviations(spreads, values), quadratic)
-    fits = []
-    for c in range(len(warm)):
-        x = np.array([res[c].x_start for res in solved], dtype=float)
-        fit, *_ = np.linalg.lstsq(a, x, rcond=None)
-        fits.append(fit)
-    return WarmFit(quadratic, tuple(fits))
+    u = _deviations(spreads, values)
+    xs = [np.array([res[c].x_start for res in solved], dtype=float) for c in range(len(warm))]
+    cubic = _most_curved(u, xs, min(CUBIC_VALUES, len(spreads))) if order == 3 else ()
+    a = _features(u, order, cubic)
+    fits = tuple(np.linalg.lstsq(a, x, rcond=None)[0] for x in xs)
+    return WarmFit(order, fits, cubic)
 
 
 def _nominal(design: Design, samples_per_cycle: int) -> list[sim.StateResult]:
