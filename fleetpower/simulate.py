@@ -164,98 +164,101 @@ class StateResult:
 
 def _state_results(cases: list[Case], sol: SteadyState) -> list[StateResult]:
     idx = {name: k for k, name in enumerate(layout.PROBES)}
-    results = []
     # over the whole batch at once: per case, numpy's call overhead dominated a spread
     pr_all = sol.probes
     means = pr_all.mean(axis=1)
-    pqs = power_quality_rows(pr_all[:, :, idx["v_terminal_v"]], pr_all[:, :, idx["i_line_a"]])
+    v_all, i_all = pr_all[:, :, idx["v_terminal_v"]], pr_all[:, :, idx["i_line_a"]]
+    pqs = power_quality_rows(v_all, i_all)
     vo_all = pr_all[:, :, idx["v_o_v"]]
-    vo_mean, vo_min, vo_max = vo_all.mean(axis=1), vo_all.min(axis=1), vo_all.max(axis=1)
+    vo_min, vo_max = vo_all.min(axis=1), vo_all.max(axis=1)
     v_out_all = pr_all[:, :, idx["v_out_v"]]
-    v_out_mean, v_out_min = v_out_all.mean(axis=1), v_out_all.min(axis=1)
     iz_rev = np.mean(np.clip(pr_all[:, :, idx["i_zener_a"]], 0.0, None), axis=1)
     vcap_all = pr_all[:, :, idx["v_c1_v"]]
-    vcap_peak = np.max(np.abs(vcap_all), axis=1)
-    vcap_rms = np.sqrt(np.mean(vcap_all * vcap_all, axis=1))
     vx_all = pr_all[:, :, idx["v_source_v"]]  # the X capacitor sits on the EMF (engine)
-    vx_peak = np.max(np.abs(vx_all), axis=1)
-    vx_rms = np.sqrt(np.mean(vx_all * vx_all, axis=1))
-    x_starts = sol.states[:, 0].tolist()
-    # per case in Python floats: the batch's columns as lists (numpy's scalars cost a
-    # call each, ~40 per case)
-    means_l = means.tolist()
-    vo_mean, vo_min, vo_max = vo_mean.tolist(), vo_min.tolist(), vo_max.tolist()
-    v_out_mean, v_out_min, iz_rev = v_out_mean.tolist(), v_out_min.tolist(), iz_rev.tolist()
-    vcap_peak, vcap_rms = vcap_peak.tolist(), vcap_rms.tolist()
-    vx_peak, vx_rms = vx_peak.tolist(), vx_rms.tolist()
-    iterations = sol.iterations.tolist()
-    evaluations = sol.residual_evaluations.tolist()
-    k_v, k_i = idx["v_terminal_v"], idx["i_line_a"]
     k_delivered, k_source = idx["p_delivered_w"], idx["p_source_resistance_w"]
     k_zener, k_series, k_bleeder = idx["p_zener_w"], idx["p_series_resistor_w"], idx["p_bleeder_w"]
-    k_losses = [(k, idx[k]) for k in layout.LOSS_PROBES]
+    k_losses = [idx[k] for k in layout.LOSS_PROBES]
     k_storage = [idx[k] for k in layout.STORAGE_PROBES]
-    always = ("p_series_resistor_w", "p_rectifier_w")
+    always = [k in ("p_series_resistor_w", "p_rectifier_w") for k in layout.LOSS_PROBES]
+    # per case in Python floats, column by column: the batch's columns as lists and zipped
+    # (numpy's scalars, and indexing a list per field, cost a call each, ~40 per case)
+    columns = zip(
+        cases, pqs, list(v_all), list(i_all), means[:, k_losses].tolist(),
+        means[:, k_storage].tolist(), means[:, k_delivered].tolist(),
+        means[:, k_source].tolist(), means[:, k_zener].tolist(),
+        means[:, k_series].tolist(), means[:, k_bleeder].tolist(),
+        means[:, idx["v_o_v"]].tolist(), vo_min.tolist(), (vo_max - vo_min).tolist(),
+        means[:, idx["v_out_v"]].tolist(), v_out_all.min(axis=1).tolist(), iz_rev.tolist(),
+        np.max(np.abs(vcap_all), axis=1).tolist(),
+        np.sqrt(np.mean(vcap_all * vcap_all, axis=1)).tolist(),
+        np.max(np.abs(vx_all), axis=1).tolist(),
+        np.sqrt(np.mean(vx_all * vx_all, axis=1)).tolist(),
+        sol.iterations.tolist(), sol.residual_evaluations.tolist(),
+        map(tuple, sol.states[:, 0].tolist()), list(sol.states), strict=True)
     inputs_of: dict[int, tuple[RangeWarning, ...]] = {}  # a design's inputs: once a batch
-    for b, case in enumerate(cases):
-        design, state, factor = case.design, case.state, case.mains_factor
+    labels_of: dict[int, list[str]] = {}  # loss labels, in LOSS_PROBES order, per topology
+    t_s = sol.t_s
+    results = []
+    for (case, pq, v, i, loss_means, storage, delivered, source, p_zener, p_series,
+         p_bleeder, v_dc, v_dc_min, ripple, v_out_mean, v_out_min, i_rev, vcap_peak,
+         vcap_rms, vx_peak, vx_rms, iterations, evaluations, x_start, x_cycle) in columns:
+        design, state = case.design, case.state
         inputs = inputs_of.get(id(design))
         if inputs is None:
             inputs = inputs_of[id(design)] = design_warnings(design)
+        impl = design.topology_impl
+        labels = labels_of.get(id(impl))
+        if labels is None:
+            names = impl.loss_labels()
+            # a loss this topology has no label for is exactly 0 in its engine rows (the
+            # probes of other circuit families): left out below; named by its probe if not
+            labels = labels_of[id(impl)] = [names.get(k, k) for k in layout.LOSS_PROBES]
         load_a = design.load_current_a(state) if case.load_a is None else case.load_a
-        pr = sol.probes[b]
-        mean = means_l[b]
         # measured at the supply's terminals (README "Where P is measured")
-        v = pr[:, k_v]
-        i = pr[:, k_i]
-        pq = pqs[b]
-        labels = design.topology_impl.loss_labels()
-        losses = {labels[k]: mean[j] for k, j in k_losses if abs(mean[j]) > 0.0 or k in always}
+        losses = {label: m for label, m, keep in zip(labels, loss_means, always,
+                                                                   strict=True)
+                  if keep or abs(m) > 0.0}
         bal = frozen(Balance, dict(
             p_in_w=pq.p_w,
-            delivered_w=mean[k_delivered],
+            delivered_w=delivered,
             losses_w=float(sum(losses.values())),
-            source_resistance_w=mean[k_source],
-            storage_w=float(sum(mean[j] for j in k_storage)),
+            source_resistance_w=source,
+            storage_w=float(sum(storage)),
         ))
         output = design.output
         regulated = design.has_linear_regulator
         if regulated:
-            need = output.voltage + output.dropout
-            ok = vo_min[b] >= need - 1e-9
-            v_cap_peak = vcap_peak[b]
-            v_cap_rms = vcap_rms[b]
+            ok = v_dc_min >= output.voltage + output.dropout - 1e-9
         else:
-            ok = vo_min[b] >= output.undervoltage_lockout
-            v_cap_peak = vx_peak[b]
-            v_cap_rms = vx_rms[b]
+            ok = v_dc_min >= output.undervoltage_lockout
+            vcap_peak, vcap_rms = vx_peak, vx_rms
         results.append(
             frozen(StateResult, dict(
                 state=state,
-                mains_factor=factor,
+                mains_factor=case.mains_factor,
                 load_a=load_a,
-                t_s=sol.t_s,
+                t_s=t_s,
                 v_v=v,
                 i_a=i,
                 pq=pq,
                 losses_w=losses,
                 balance=bal,
-                v_dc_v=vo_mean[b],
-                v_dc_min_v=vo_min[b],
-                ripple_v_pp=vo_max[b] - vo_min[b],
-                i_dc_a=(load_a * v_out_mean[b] / output.voltage if regulated else load_a),
-                v_out_min_v=v_out_min[b],
-                i_zener_reverse_a=iz_rev[b],
-                p_zener_w=mean[k_zener],
-                p_series_resistor_w=mean[k_series],
-                p_bleeder_w=mean[k_bleeder],
-                v_cap_peak_v=v_cap_peak,
-                v_cap_rms_v=v_cap_rms,
+                v_dc_v=v_dc,
+                v_dc_min_v=v_dc_min,
+                ripple_v_pp=ripple,
+                i_dc_a=(load_a * v_out_mean / output.voltage if regulated else load_a),
+                v_out_min_v=v_out_min,
+                i_zener_reverse_a=i_rev,
+                p_zener_w=p_zener,
+                p_series_resistor_w=p_series,
+                p_bleeder_w=p_bleeder,
+                v_cap_peak_v=vcap_peak,
+                v_cap_rms_v=vcap_rms,
                 in_regulation=ok,
-                iterations=iterations[b],
-                residual_evaluations=evaluations[b],
-                x_start=tuple(x_starts[b]),
-                x_cycle=sol.states[b],
+                iterations=iterations,
+                residual_evaluations=evaluations,
+                x_start=x_start,
+                x_cycle=x_cycle,
                 range_warnings=_range_warnings(design, state, pq, inputs),
             ))
         )
