@@ -203,7 +203,9 @@ def _consistent(x, t, p, m, scale, info):
                     a[i, j] = 0.0
                 a[i, i] = 1.0
                 b[i, 0] = 0.0
-        if not _solve_small(a, b, n):
+        # the size as a run-time int, as the shooting step passes it: one compiled
+        # _solve_small, not a second one specialised on the constant 4 (0.4-0.6 s of compile)
+        if not _solve_small(a, b, a.shape[0]):
             return False
         # limit each update to 5 % of the unknown's scale (junction-voltage limiting, as
         # SPICE does): from a reverse-biased diode the first Newton step is far too long
