@@ -6,13 +6,17 @@ in a source checkout they sit at the top of the repository.
 
 from __future__ import annotations
 
+import functools
 from pathlib import Path
 
 _PACKAGE = Path(__file__).resolve().parent
 _REPO = _PACKAGE.parent
 
 
+@functools.cache
 def _locate(name: str) -> Path:
+    # the package does not move while it runs: found once (a spread evaluates thousands of
+    # units against the limit tables, each load asking for the folder)
     installed = _PACKAGE / name
     return installed if installed.is_dir() else _REPO / name
 

@@ -639,3 +639,26 @@ def test_user_file_with_byte_order_mark_and_short_row(tmp_path):
     (rec,) = L.limit_records(path)
     assert rec["set"] == "my" and rec["limit"] == 0.3 and rec["note"] == ""
     assert rec["provenance"] == "user file" and rec["row"] == 2
+
+
+def test_tables_held_reads_the_folder_once_and_gives_the_same_rows(monkeypatch):
+    # a batch of units checks the shipped tables' files once (limits.tables.tables_held);
+    # the rows are the same as outside a batch (the shipped CSVs, data/limits)
+    from fleetpower.limits import tables
+
+    outside = tables.limit_records("iec61000-3-2-class-a")
+    listings = []
+    real_glob = type(tables.limits_dir()).glob
+
+    def counting_glob(self, pattern):
+        listings.append(pattern)
+        return real_glob(self, pattern)
+
+    monkeypatch.setattr(type(tables.limits_dir()), "glob", counting_glob)
+    with tables.tables_held():
+        held = [tables.limit_records("iec61000-3-2-class-a") for _ in range(5)]
+    assert len(listings) == 1  # at the block's start, not per load
+    assert all(rows == outside for rows in held)
+    tables.limit_records("iec61000-3-2-class-a")
+    assert len(listings) == 2  # outside a block every load checks again
+    assert tables._HELD_STAMP.get() is None

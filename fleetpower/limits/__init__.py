@@ -31,7 +31,9 @@ _EXPORTS = {
 
 def __getattr__(name: str):
     if name in _EXPORTS:
-        return getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
+        value = getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
+        globals()[name] = value  # resolved once: later lookups are plain attributes
+        return value
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 

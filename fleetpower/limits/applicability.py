@@ -12,7 +12,7 @@ the rest of ``limits``, ``io`` and the unit analysis; nothing of fleet, compare 
 from __future__ import annotations
 
 import math
-from dataclasses import asdict
+from dataclasses import fields
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -167,9 +167,15 @@ def required_declaration(set_id: str) -> str | None:
     return req if isinstance(req, str) and req else None
 
 
+def _as_dict(row: L.ComplianceRow) -> dict:
+    """A compliance row's fields by name (all scalars and strings: a shallow copy is
+    :func:`dataclasses.asdict`'s result without its recursive deep copy)."""
+    return {f.name: getattr(row, f.name) for f in fields(row)}
+
+
 def _scoped(row, scope: str = IN_SCOPE, verdict: str | None = None,
             reason: str | None = None) -> dict:
-    d = asdict(row) if not isinstance(row, dict) else dict(row)
+    d = _as_dict(row) if not isinstance(row, dict) else dict(row)
     d["scope"] = scope
     if verdict is not None:
         d["verdict"] = verdict
@@ -189,7 +195,7 @@ def _set_row(set_id: str, quantity: str, unit: str, verdict: str, scope: str,
 
 
 def _rows(rows: list[L.ComplianceRow]) -> list[dict]:
-    return [asdict(r) for r in rows]
+    return [_as_dict(r) for r in rows]
 
 
 def rated_state(design: Design) -> str:
