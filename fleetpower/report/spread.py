@@ -208,7 +208,8 @@ def render_spread(report: dict, console) -> None:
             f"The P5 unit can no longer deliver '{ag['state']}' from year {year}."
             if year is not None else
             f"The P5 unit still delivers '{ag['state']}' at year {last}.")
-    console.print(f"[dim]solve time {report['solve_s']:.1f} s[/dim]")
+    console.print(f"[dim]run time {report['solve_s']:.1f} s (solves, per-unit figures, stresses"
+                  " and limits)[/dim]")
 
 
 #: the figures of a spread run (:func:`spread_figures`), by file stem

@@ -547,6 +547,8 @@ class SpreadResult:
     requested: int
     done: int
     interrupted: bool
+    #: wall time of the run [s]: the solves, each unit's figures and stresses and its limit
+    #: checks (JSON `solve_s`)
     solve_s: float
     ageing: AgeingResult | None = None
     values: dict[int, np.ndarray] = field(default_factory=dict)
