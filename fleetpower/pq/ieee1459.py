@@ -19,7 +19,6 @@ system totals). May import the rest of ``pq`` only; nothing else of fleetpower.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
@@ -216,23 +215,31 @@ def power_quality_rows(v_v: np.ndarray, i_a: np.ndarray) -> list[PowerQuality]:
     v1 = np.abs(vh[:, 1])
     i1 = np.abs(ih[:, 1])
     s1c = vh[:, 1] * np.conj(ih[:, 1])
-    # per row in Python floats (lists: numpy's scalars cost a call each); math.sqrt is
-    # numpy's sqrt of a float to the bit (both correctly rounded, IEEE 754)
-    columns = zip(v_rms.tolist(), i_rms.tolist(), i_peak.tolist(), p.tolist(), v1.tolist(),
-                  i1.tolist(), s1c.real.tolist(), s1c.imag.tolist(), thd_pct(ih).tolist(),
-                  thd_pct(vh).tolist(), ih[:, 0].real.tolist(), ih, vh, strict=True)
+    # the derived figures over the batch, each the same IEEE 754 operation as the scalar
+    # path's (products, quotients and square roots are correctly rounded in both)
+    s_va = v_rms * i_rms
+    s1_va = v1 * i1
+    i_h_rms = np.sqrt(np.maximum(i_rms * i_rms - i1 * i1, 0.0))
+    has_i, has_s, has_s1 = i_rms > 0, s_va > 0, s1_va > 0
+    crest = np.where(has_i, i_peak / np.where(has_i, i_rms, 1.0), 0.0)
+    pf = np.where(has_s, p / np.where(has_s, s_va, 1.0), 1.0)
+    dpf = np.where(has_s1, s1c.real / np.where(has_s1, s1_va, 1.0), 1.0)
+    # per row in Python floats (lists: numpy's scalars cost a call each)
+    columns = zip(v_rms.tolist(), i_rms.tolist(), i_peak.tolist(), crest.tolist(),
+                  p.tolist(), s_va.tolist(), np.sqrt(np.maximum(s_va * s_va - p * p,
+                                                                0.0)).tolist(),
+                  v1.tolist(), i1.tolist(), s1c.real.tolist(), s1c.imag.tolist(),
+                  s1_va.tolist(), (v1 * i_h_rms).tolist(), pf.tolist(), dpf.tolist(),
+                  thd_pct(ih).tolist(), thd_pct(vh).tolist(), ih[:, 0].real.tolist(),
+                  list(ih), list(vh), strict=True)
     out = []
-    for vr, ir, pk, pw, v1b, i1b, p1, q1, thd_i, thd_v, i_dc, ih_b, vh_b in columns:
-        s = vr * ir
-        s1 = v1b * i1b
-        i_h_rms = math.sqrt(max(ir * ir - i1b * i1b, 0.0))
+    for (vr, ir, pk, cf, pw, s, n, v1b, i1b, p1, q1, s1, d_i, pf_b, dpf_b, thd_i, thd_v,
+         i_dc, ih_b, vh_b) in columns:
         out.append(frozen(PowerQuality, dict(
-            v_rms_v=vr, i_rms_a=ir, i_peak_a=pk, crest_factor=pk / ir if ir > 0 else 0.0,
-            p_w=pw, s_va=s, n_var=math.sqrt(max(s * s - pw * pw, 0.0)),
-            v1_rms_v=v1b, i1_rms_a=i1b, p1_w=p1, q1_var=q1, s1_va=s1,
-            d_i_var=v1b * i_h_rms, pf=pw / s if s > 0 else 1.0,
-            dpf=p1 / s1 if s1 > 0 else 1.0, thd_i_pct=thd_i,
-            thd_v_pct=thd_v, i_dc_a=i_dc, i_h_a=ih_b, v_h_v=vh_b)))
+            v_rms_v=vr, i_rms_a=ir, i_peak_a=pk, crest_factor=cf, p_w=pw, s_va=s,
+            n_var=n, v1_rms_v=v1b, i1_rms_a=i1b, p1_w=p1, q1_var=q1, s1_va=s1,
+            d_i_var=d_i, pf=pf_b, dpf=dpf_b, thd_i_pct=thd_i, thd_v_pct=thd_v,
+            i_dc_a=i_dc, i_h_a=ih_b, v_h_v=vh_b)))
     return out
 
 
