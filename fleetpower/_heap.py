@@ -12,6 +12,8 @@ moved whole to the permanent one) for the duration of a batch and unfreezes them
 Nothing is leaked or kept alive: reference counting frees as always; only a reference
 cycle among objects older than the batch that became garbage during it waits for the next
 collection after the batch. Objects made during the batch are collected as usual.
+
+Owns: :func:`old_objects_frozen`, :func:`frozen_during`. Imports nothing of fleetpower.
 """
 
 from __future__ import annotations
