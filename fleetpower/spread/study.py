@@ -265,8 +265,8 @@ def _most_curved(u: np.ndarray, xs: list[np.ndarray], count: int) -> tuple[int, 
             curved[i - 1] += w
             if j != i:
                 curved[j - 1] += w
-    order = np.argsort(-curved, kind="stable")[:count]
-    return tuple(sorted(int(c) + 1 for c in order))
+    ranked = np.argsort(-curved, kind="stable")[:count]
+    return tuple(sorted(int(c) + 1 for c in ranked))
 
 
 @dataclass(frozen=True)
@@ -296,7 +296,7 @@ def _warm_fit(design: Design, spreads, n: int, values_of, warm, samples_per_cycl
 
     Started from it, a sample's first cycle is within the fit's residual of its fixed
     point: with the cubic fit (92 pilots), 98 % of the lean desk-sensor dropper's samples
-    are periodic to 1e-6 after one cycle (the quadratic fit, 72 pilots: 78 %; the linear
+    are periodic to 1e-6 after one cycle (the quadratic fit, 72 pilots: 80 %; the linear
     fit: 1.5 %; the nominal's own start took three cycles on average and up to 25 near a
     zener's knee; DEVELOPERS.md "Accuracy per cost"). It changes where each solve starts,
     not where it ends (the same fixed point to the periodicity tolerance); it depends only
